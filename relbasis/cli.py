@@ -1,0 +1,187 @@
+"""Command line: a thin shell over the Python API.
+
+    relbasis levels [CONFIG.toml] [--z Z] [--nucleus MODEL] [--size N] ... [--json] [--all]
+
+Every error a user can fix is printed as one line on stderr with exit status 2.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+from . import __version__, constants
+from .errors import InputError
+
+_EXAMPLE = "relbasis levels --z 92"
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with one-line errors (exit status 2), as for every other input problem."""
+
+    def error(self, message):  # noqa: D401 - argparse API
+        raise InputError(f"{self.prog}: {message} (see '{self.prog} --help')")
+
+
+def _add_model_options(p: argparse.ArgumentParser) -> None:
+    ion = p.add_argument_group("ion (override [ion] of the config)")
+    ion.add_argument("--z", type=float, metavar="Z", help="nuclear charge (required without a config)")
+    ion.add_argument("--a", type=int, metavar="A", help="mass number (default: per element)")
+    ion.add_argument("--nucleus", metavar="MODEL", help="point | sphere | gauss | fermi (default fermi; gauss for the lightest)")
+    ion.add_argument("--rms-radius", type=float, metavar="FM", help="rms charge radius in fm")
+    basis = p.add_argument_group("basis (override [basis] of the config)")
+    basis.add_argument("--family", help="bspline")
+    basis.add_argument("--size", type=int, help="number of B-splines (default 90)")
+    basis.add_argument("--order", type=int, help="B-spline order, degree + 1 (default 10)")
+    basis.add_argument("--r-min", type=float, metavar="BOHR", help="first non-zero knot")
+    basis.add_argument("--r-max", type=float, metavar="BOHR", help="cavity radius")
+    basis.add_argument("--r-scale", type=float, metavar="BOHR", help="log-linear knots: where spacing turns even")
+    basis.add_argument("--knots", help="log-linear | exponential")
+    basis.add_argument("--balance", help="none | dkb (default dkb)")
+    basis.add_argument("--quadrature", type=int, metavar="N", help="Gauss-Legendre points per knot interval")
+    p.add_argument("--kappas", metavar="LIST", help="symmetries, e.g. -1,1,-2 (default: |kappa| <= 4)")
+
+
+def _overrides(args) -> dict:
+    ion = {"Z": args.z, "A": args.a, "nucleus": args.nucleus, "rms_radius_fm": args.rms_radius}
+    basis = {"family": args.family, "size": args.size, "order": args.order, "r_min": args.r_min,
+             "r_max": args.r_max, "r_scale": args.r_scale, "knots": args.knots, "balance": args.balance,
+             "quadrature": args.quadrature}
+    out = {"ion": {k: v for k, v in ion.items() if v is not None},
+           "basis": {k: v for k, v in basis.items() if v is not None}}
+    if out["ion"].get("Z") is not None and float(out["ion"]["Z"]).is_integer():
+        out["ion"]["Z"] = int(out["ion"]["Z"])
+    if args.kappas is not None:
+        try:
+            out["solve"] = {"kappas": [int(k) for k in args.kappas.replace(" ", "").split(",") if k]}
+        except ValueError:
+            raise InputError(f"--kappas {args.kappas!r}: give a comma-separated list of non-zero integers, e.g. -1,1,-2") from None
+    return out
+
+
+def _solution(args):
+    from .solver import solve
+
+    over = _overrides(args)
+    config = args.config
+    if config is None and "Z" not in over["ion"]:
+        config = demo_config_path()
+    return solve(config, **over)
+
+
+def demo_config_path():
+    """The embedded demo scenario (an invented one), used when neither a config nor --z is given."""
+    from importlib.resources import files
+
+    return files("relbasis") / "data" / "demo.toml"
+
+
+# ----------------------------------------------------------------------------- levels
+
+
+def _fmt_flags(flags) -> str:
+    return ",".join(flags) if flags else ""
+
+
+def levels_table(sol, show_all: bool = False) -> str:
+    """The readable table of `relbasis levels`."""
+    nuc = sol.nucleus
+    b = sol.config.basis
+    point = nuc.model == "point"
+    lines = []
+    radius = "" if point else f", rms radius {nuc.rms_radius_fm:.4f} fm"
+    lines.append(f"relbasis {__version__}: Z = {nuc.Z:g}, A = {nuc.A}, {nuc.model} nucleus{radius}; no QED")
+    lines.append(
+        f"basis: {b.family}, {b.size} splines of order {b.order}, {b.knots if isinstance(b.knots, str) else 'given'} knots "
+        f"r_min = {b.r_min:.3g}, r_max = {b.r_max:.4g} bohr, balance = {b.balance}"
+    )
+    lines.append(f"constants: CODATA {constants.CODATA}, alpha = {constants.ALPHA:.13g}, 1 hartree = {constants.HARTREE_EV:.12g} eV")
+    lines.append("energies are binding energies eps = E - m c^2")
+    lines.append("")
+    head = f"{'kappa':>5}  {'branch':<8}  {'label':<7}  {'eps (hartree)':>22}  {'eps (eV)':>22}"
+    if point:
+        head += f"  {'rel. error':>10}"
+    head += "  flags"
+    lines.append(head)
+    for kappa in sol.kappas:
+        spec = sol[kappa]
+        counts = {br: len(spec.indices(br)) for br in ("negative", "bound", "positive", "spurious")}
+        for i, eps in enumerate(spec.energies):
+            br = spec.branches[i]
+            if not show_all and br in ("negative", "positive"):
+                continue
+            row = f"{kappa:>5}  {br:<8}  {spec.labels[i] or '-':<7}  {eps:>22.15g}  {eps * constants.HARTREE_EV:>22.15g}"
+            if point:
+                err = f"{abs(eps / sol.exact(kappa, spec.n[i]) - 1):.2e}" if spec.n[i] is not None else "-"
+                row += f"  {err:>10}"
+            row += f"  {_fmt_flags(spec.flags[i])}"
+            lines.append(row.rstrip())
+        lines.append(
+            f"{'':>5}  roots: {len(spec)} = {counts['negative']} negative + {counts['bound']} bound + "
+            f"{counts['positive']} positive + {counts['spurious']} spurious"
+            + ("" if show_all else "  (--all lists the continua)")
+        )
+    lines.append("")
+    lines.append("Levels hold for the stated nuclear model without QED; validate before use in publications.")
+    return "\n".join(lines)
+
+
+def _cmd_levels(args) -> int:
+    sol = _solution(args)
+    if args.json:
+        print(json.dumps(sol.to_dict(), indent=1))
+    else:
+        print(levels_table(sol, args.all))
+    return 0
+
+
+# ----------------------------------------------------------------------------- main
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = _Parser(prog="relbasis", description="Finite bases of Dirac orbitals for relativistic atomic-structure work.")
+    p.add_argument("--version", action="version", version=f"relbasis {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    lv = sub.add_parser("levels", help="solve one-electron Dirac spectra and sort every root",
+                        description="Spectrum of the radial Dirac equation for a one-electron ion in a B-spline basis.")
+    lv.add_argument("config", nargs="?", help="TOML config file ([ion], [basis], [solve]); default: the embedded demo ion")
+    _add_model_options(lv)
+    lv.add_argument("--json", action="store_true", help="print the JSON document instead of the table")
+    lv.add_argument("--all", action="store_true", help="list the continuum roots too")
+    lv.set_defaults(func=_cmd_levels)
+    return p
+
+
+def _join_negative_lists(argv: list[str]) -> list[str]:
+    """'--kappas -1,1' -> '--kappas=-1,1': argparse would take '-1,1' for an option."""
+    out, i = [], 0
+    while i < len(argv):
+        if argv[i] == "--kappas" and i + 1 < len(argv) and argv[i + 1][:2].lstrip("-")[:1].isdigit():
+            out.append(f"--kappas={argv[i + 1]}")
+            i += 2
+        else:
+            out.append(argv[i])
+            i += 1
+    return out
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    try:
+        args = parser.parse_args(_join_negative_lists(list(sys.argv[1:] if argv is None else argv)))
+        if getattr(args, "func", None) is None:
+            raise InputError(f"relbasis: give a command, e.g. '{_EXAMPLE}' (see 'relbasis --help')")
+        return args.func(args)
+    except InputError as err:
+        print(f"error: {err}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,18 @@
+"""Errors that relbasis raises for input a user can fix.
+
+Every problem with a config file, a command-line flag or a Python argument is an
+:class:`InputError` whose message is one line naming the offending key or value and what
+would be valid.  The command line prints that line and exits with status 2.
+"""
+
+
+class InputError(ValueError):
+    """Bad input: the message names the key or value and what would be valid."""
+
+
+class ConfigError(InputError):
+    """A config file or mapping has an unknown key, a wrong type or a value out of range."""
+
+
+class PhysicsRangeError(InputError):
+    """The requested model lies outside what the physics allows (e.g. Z*alpha >= 1, point nucleus)."""

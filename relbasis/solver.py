@@ -1,0 +1,157 @@
+"""One call from a config to the sorted spectra of every requested symmetry.
+
+``solve(config)`` builds the nucleus and the B-spline set once, then for each kappa assembles
+H and S (:mod:`relbasis.dirac`), finds every root (:mod:`relbasis.eigen`), refines the roots in
+the bound-state window, and sorts them (:mod:`relbasis.spectrum`).  Negative kappas are done
+first so that the duplicate-level check of kappa > 0 can look at its partner -kappa.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import __version__, constants
+from .analytic import dirac_coulomb_energy
+from .bspline import BSplineBasis, QuadratureTable, exponential_knots, knots_from_breakpoints, log_linear_knots
+from .config import Config, from_dict, load, resolve
+from .constants import C
+from .dirac import DiracBasis
+from .eigen import refine, solve as eigensolve
+from .errors import InputError
+from .nucleus import Nucleus
+from .spectrum import Spectrum, classify, duplicate_roots
+
+
+@dataclass(frozen=True)
+class Solution:
+    """Spectra of all requested symmetries of one ion in one basis."""
+
+    config: Config  # resolved: every default filled in
+    nucleus: Nucleus
+    splines: BSplineBasis = field(repr=False)
+    bases: dict[int, DiracBasis] = field(repr=False)
+    spectra: dict[int, Spectrum] = field(repr=False)
+
+    @property
+    def kappas(self) -> tuple[int, ...]:
+        return self.config.solve.kappas
+
+    def __getitem__(self, kappa: int) -> Spectrum:
+        return self.spectra[kappa]
+
+    def exact(self, kappa: int, n: int) -> float | None:
+        """Exact Dirac–Coulomb binding energy for a point nucleus, else None."""
+        if self.nucleus.model != "point":
+            return None
+        return dirac_coulomb_energy(self.nucleus.Z, n, kappa)
+
+    def states(self) -> list[dict]:
+        """Every root once, in symmetry order then ascending energy (the JSON ``states`` list)."""
+        out = []
+        for kappa in self.kappas:
+            spec = self.spectra[kappa]
+            for i, eps in enumerate(spec.energies):
+                rec = {
+                    "kappa": kappa,
+                    "n": spec.n[i],
+                    "label": spec.labels[i],
+                    "branch": spec.branches[i],
+                    "energy_hartree": float(eps),
+                    "flags": list(spec.flags[i]),
+                }
+                if spec.n[i] is not None and self.nucleus.model == "point":
+                    ex = self.exact(kappa, spec.n[i])
+                    rec["exact_hartree"] = ex
+                    rec["relative_error"] = abs(eps / ex - 1.0)
+                out.append(rec)
+        return out
+
+    def to_dict(self) -> dict:
+        """The JSON document of DESIGN.md."""
+        basis = self.config.to_dict()["basis"]
+        basis["functions"] = {str(k): self.bases[k].size for k in self.kappas}
+        return {
+            "relbasis": __version__,
+            "constants": {"alpha": constants.ALPHA, "codata": constants.CODATA, "hartree_eV": constants.HARTREE_EV},
+            "ion": self.nucleus.to_dict(),
+            "basis": basis,
+            "states": self.states(),
+        }
+
+
+def as_config(config=None, **overrides) -> Config:
+    """A :class:`Config` from a Config, a mapping, a TOML path or keyword overrides.
+
+    Overrides are section-qualified: ``solve(None, ion={"Z": 92}, basis={"size": 60})``.
+    """
+    if isinstance(config, Config):
+        data = config.to_dict()
+    elif config is None:
+        data = {}
+    elif isinstance(config, dict):
+        data = {k: dict(v) if isinstance(v, dict) else v for k, v in config.items()}
+    else:
+        data = load(config).to_dict()
+    for section, values in overrides.items():
+        if not isinstance(values, dict):
+            raise InputError(f"override {section}={values!r}: give a mapping of keys, e.g. {section}={{...}}")
+        data.setdefault(section, {})
+        if not isinstance(data[section], dict):
+            raise InputError(f"[{section}] must be a table of keys")
+        data[section].update(values)
+    return from_dict(data)
+
+
+def build_splines(config: Config, nucleus: Nucleus) -> BSplineBasis:
+    """The B-spline set of a resolved config, with a knot at the nuclear edge for finite nuclei."""
+    b = config.basis
+    if isinstance(b.knots, tuple):
+        t = knots_from_breakpoints(b.knots, b.order)
+        if t[-1] <= 0:
+            raise InputError("basis.knots: the last breakpoint (the cavity radius) must be > 0")
+        return BSplineBasis(t, b.order)
+    if b.knots == "exponential":
+        t = exponential_knots(b.size, b.order, b.r_min, b.r_max)
+    else:
+        t = log_linear_knots(b.size, b.order, b.r_min, b.r_max, b.r_scale)
+    R = nucleus.radius_bohr
+    if nucleus.model == "sphere" and b.r_min < R < b.r_max:
+        # the sphere's potential has a jump in V'' at R: a breakpoint there keeps the splines'
+        # convergence rate; it replaces the nearest knot so that size keeps its meaning
+        x = np.unique(t)
+        j = int(np.argmin(np.abs(x[1:-1] - R))) + 1
+        x[j] = R
+        t = knots_from_breakpoints(np.unique(x), b.order)
+    return BSplineBasis(t, b.order)
+
+
+def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np.ndarray, balance: str,
+                point_charge: float, partner: Spectrum | None = None) -> tuple[DiracBasis, Spectrum]:
+    """Basis, matrices, roots, refinement and sorting for one symmetry."""
+    basis = DiracBasis.build(splines, kappa, balance, C, point_charge)
+    H, S = basis.matrices(table, V)
+    system = eigensolve(H, S)
+    system = refine(system, H, S, (system.energies > -2 * C * C) & (system.energies < 0))
+    window = (system.energies > -2 * C * C) & (system.energies < 0)
+    (P,) = basis.evaluate_on(table, system.vectors, "P")
+    Q, DP = basis.evaluate_on(table, system.vectors[:, window], "QD")
+    external = duplicate_roots(kappa, system.energies, partner)
+    spec = classify(kappa, system.energies, system.vectors, P, Q, DP, table.w.ravel(), V.ravel(), C, external)
+    return basis, spec
+
+
+def solve(config=None, **overrides) -> Solution:
+    """Spectra of the requested symmetries (see :func:`as_config` for the ways to pass a config)."""
+    cfg, nucleus = resolve(as_config(config, **overrides))
+    splines = build_splines(cfg, nucleus)
+    table = splines.quadrature(cfg.basis.quadrature)
+    V = nucleus.potential(table.r)
+    point_charge = float(nucleus.Z) if nucleus.model == "point" else 0.0
+    bases, spectra = {}, {}
+    for kappa in sorted(cfg.solve.kappas, key=lambda k: (k > 0, abs(k))):
+        bases[kappa], spectra[kappa] = solve_kappa(
+            kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa)
+        )
+    return Solution(cfg, nucleus, splines, bases, spectra)
