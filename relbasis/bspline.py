@@ -83,7 +83,7 @@ def log_linear_knots(size: int, order: int, r_min: float, r_max: float, r_scale:
         return u - np.log(r_min) + np.exp(u) / r_scale
 
     lo, hi = np.log(r_min), np.log(r_max)
-    targets = np.linspace(0.0, s(hi), m)
+    targets = np.linspace(s(lo), s(hi), m)
     inner = np.empty(m)
     inner[0], inner[-1] = r_min, r_max
     for j in range(1, m - 1):  # m solves of a monotone scalar equation, once per basis

@@ -167,7 +167,8 @@ class DiracBasis:
         loc = dict(zip("PQD", self._local(table)[:3]))
         idx = self._local_index(table)
         coef = np.where((idx >= 0)[..., None], coefficients[np.maximum(idx, 0)], 0.0)  # (n_int, slots, m)
-        return tuple(np.matmul(loc[ch], coef).reshape(-1, coefficients.shape[1]) for ch in channels)
+        shape = (table.r.size, coefficients.shape[1])
+        return tuple(np.matmul(loc[ch], coef).reshape(shape) for ch in channels)
 
     def matrices(self, table: QuadratureTable, potential: np.ndarray):
         """H and S (dense, size x size) with V given at the table's points, shape (n_int, nq).
