@@ -127,6 +127,11 @@ class DiracBasis:
     def family_sizes(self) -> tuple[int, ...]:
         return tuple(f.splines.size for f in self.families)
 
+    def band_order(self) -> np.ndarray:
+        """Permutation of the rows of H that sorts the functions by spline index (H, S banded)."""
+        centre = np.concatenate([f.splines for f in self.families])
+        return np.argsort(centre, kind="stable")
+
     def _global_index(self) -> list[np.ndarray]:
         """Per family: map spline index -> row of H (or -1 where the spline is removed)."""
         maps, offset = [], 0
@@ -160,23 +165,27 @@ class DiracBasis:
         P, Q, DP = (np.concatenate([ch[i] for ch in chans], axis=-1) for i in range(3))
         return P, Q, DP, np.concatenate(index, axis=1)
 
-    def evaluate_on(self, table: QuadratureTable, coefficients: np.ndarray, channels: str = "PQD"):
+    def local_channels(self, table: QuadratureTable) -> "LocalChannels":
+        """(P, Q, D+P) of the functions on every interval of the table, for reuse."""
+        P, Q, DP, idx = self._local(table)
+        return LocalChannels(P, Q, DP, idx)
+
+    def evaluate_on(self, table: QuadratureTable, coefficients: np.ndarray, channels: str = "PQD",
+                    local: "LocalChannels | None" = None):
         """P, Q and/or D+P of the functions with the given coefficients (size x m) at the table's
         points, each (n_int * nq, m), interval by interval (only k splines per family live there).
         """
-        loc = dict(zip("PQD", self._local(table)[:3]))
-        idx = self._local_index(table)
-        coef = np.where((idx >= 0)[..., None], coefficients[np.maximum(idx, 0)], 0.0)  # (n_int, slots, m)
-        shape = (table.r.size, coefficients.shape[1])
-        return tuple(np.matmul(loc[ch], coef).reshape(shape) for ch in channels)
+        local = local or self.local_channels(table)
+        return local.evaluate(coefficients, channels)
 
-    def matrices(self, table: QuadratureTable, potential: np.ndarray):
+    def matrices(self, table: QuadratureTable, potential: np.ndarray, local: LocalChannels | None = None):
         """H and S (dense, size x size) with V given at the table's points, shape (n_int, nq).
 
         Local assembly: on each knot interval only k splines per family are non-zero, so the
         integrals are (2k x 2k) blocks per interval, summed into the global matrices.
         """
-        P, Q, DP, idx = self._local(table)
+        local = local or self.local_channels(table)
+        P, Q, DP, idx = local.P, local.Q, local.DP, local.index
         w = table.w[..., None]
         wP, wQ = w * P, w * Q
         S_loc = _bt(wP, P) + _bt(wQ, Q)
@@ -187,6 +196,35 @@ class DiracBasis:
         H = _scatter(H_loc, idx, n)
         S = _scatter(S_loc, idx, n)
         return H, S
+
+
+@dataclass(frozen=True)
+class LocalChannels:
+    """P, Q, D+P of every local function slot, (n_int, nq, slots), and the slot -> row map."""
+
+    P: np.ndarray
+    Q: np.ndarray
+    DP: np.ndarray
+    index: np.ndarray  # (n_int, slots), -1 where the spline is removed
+
+    def dense(self, channel: str, size: int) -> np.ndarray:
+        """One channel ("P", "Q" or "D") as a dense (n_int * nq, size) matrix of the basis functions."""
+        M = {"P": self.P, "Q": self.Q, "D": self.DP}[channel]
+        n_int, nq, slots = M.shape
+        out = np.zeros((n_int * nq, size))
+        rows = np.broadcast_to(np.arange(n_int * nq).reshape(n_int, nq, 1), M.shape)
+        cols = np.broadcast_to(self.index[:, None, :], M.shape)
+        keep = cols >= 0
+        np.add.at(out, (rows[keep], cols[keep]), M[keep])
+        return out
+
+    def evaluate(self, coefficients: np.ndarray, channels: str = "PQD"):
+        """Channels of the functions with the given coefficients (rows x m): (n_int * nq, m) each."""
+        m = coefficients.shape[1]
+        coef = np.where((self.index >= 0)[..., None], coefficients[np.maximum(self.index, 0)], 0.0)
+        shape = (self.P.shape[0] * self.P.shape[1], m)
+        chans = {"P": self.P, "Q": self.Q, "D": self.DP}
+        return tuple(np.matmul(chans[ch], coef).reshape(shape) for ch in channels)
 
 
 def _bt(a: np.ndarray, b: np.ndarray) -> np.ndarray:

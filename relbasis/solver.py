@@ -132,17 +132,24 @@ def build_splines(config: Config, nucleus: Nucleus) -> BSplineBasis:
 
 
 def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np.ndarray, balance: str,
-                point_charge: float, partner: Spectrum | None = None) -> tuple[DiracBasis, Spectrum]:
-    """Basis, matrices, roots, refinement and sorting for one symmetry."""
+                point_charge: float, partner: Spectrum | None = None,
+                coarse: QuadratureTable | None = None) -> tuple[DiracBasis, Spectrum]:
+    """Basis, matrices, roots, refinement and sorting for one symmetry.
+
+    ``coarse`` (one point per knot interval) serves to fix the sign of the continuum roots
+    cheaply; roots in the bound-state window are examined on the full table.
+    """
     basis = DiracBasis.build(splines, kappa, balance, C, point_charge)
-    H, S = basis.matrices(table, V)
+    local = basis.local_channels(table)
+    H, S = basis.matrices(table, V, local)
     system = eigensolve(H, S)
-    system = refine(system, H, S, (system.energies > -2 * C * C) & (system.energies < 0))
+    system = refine(system, H, S, (system.energies > -2 * C * C) & (system.energies < 0), basis.band_order())
     window = (system.energies > -2 * C * C) & (system.energies < 0)
-    (P,) = basis.evaluate_on(table, system.vectors, "P")
-    Q, DP = basis.evaluate_on(table, system.vectors[:, window], "QD")
+    coarse = coarse or splines.quadrature(1)
+    P_all = basis.local_channels(coarse).dense("P", basis.size) @ system.vectors
+    P, Q, DP = local.evaluate(system.vectors[:, window], "PQD")
     external = duplicate_roots(kappa, system.energies, partner)
-    spec = classify(kappa, system.energies, system.vectors, P, Q, DP, table.w.ravel(), V.ravel(), C, external)
+    spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, table.w.ravel(), V.ravel(), C, external)
     return basis, spec
 
 
@@ -152,10 +159,11 @@ def solve(config=None, **overrides) -> Solution:
     splines = build_splines(cfg, nucleus)
     table = splines.quadrature(cfg.basis.quadrature)
     V = nucleus.potential(table.r)
+    coarse = splines.quadrature(1)
     point_charge = float(nucleus.Z) if nucleus.model == "point" else 0.0
     bases, spectra = {}, {}
     for kappa in sorted(cfg.solve.kappas, key=lambda k: (k > 0, abs(k))):
         bases[kappa], spectra[kappa] = solve_kappa(
-            kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa)
+            kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa), coarse
         )
     return Solution(cfg, nucleus, splines, bases, spectra)

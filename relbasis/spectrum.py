@@ -87,6 +87,15 @@ def count_nodes(P: np.ndarray, w: np.ndarray, floor: float = NODE_FLOOR) -> np.n
     return out
 
 
+def _first_sign(P: np.ndarray) -> np.ndarray:
+    """Sign of each column at its first point where |P| exceeds 1e-3 of its largest value."""
+    big = np.abs(P) > 1e-3 * np.max(np.abs(P), axis=0, keepdims=True)
+    first = np.argmax(big, axis=0)
+    sign = np.sign(P[first, np.arange(P.shape[1])])
+    sign[sign == 0] = 1.0
+    return sign
+
+
 @dataclass(frozen=True)
 class Spectrum:
     """All roots of one symmetry kappa, in ascending energy, with branch, n, label and flags."""
@@ -115,27 +124,25 @@ class Spectrum:
         raise KeyError(f"no bound state n = {n} for kappa = {self.kappa}")
 
 
-def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P: np.ndarray, Q: np.ndarray,
-             DP: np.ndarray, w: np.ndarray, V: np.ndarray, c: float,
+def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.ndarray, P: np.ndarray,
+             Q: np.ndarray, DP: np.ndarray, w: np.ndarray, V: np.ndarray, c: float,
              external: dict[int, str] | None = None) -> Spectrum:
     """Branches, n, labels and flags for the roots of one symmetry.
 
-    ``P`` holds (points x roots) values of P on an ascending radial grid with quadrature
-    weights ``w`` and potential ``V``; ``Q`` and ``DP`` hold Q and D+P of the roots in the
-    bound-state window -2c^2 < eps < 0 only (points x roots in the window); ``vectors`` are the
+    ``P_all`` holds P of every root on an ascending radial grid, coarse or fine (it fixes the
+    sign of the roots outside the window); ``P``, ``Q`` and ``DP`` hold P, Q and D+P of the
+    roots in the bound-state window -2c^2 < eps < 0 (points x roots in the window) on a grid
+    with quadrature weights ``w`` and potential ``V``; ``vectors`` are the
     coefficients (basis x roots), returned with the sign fixed so that P > 0 near the origin.
     ``external`` maps root indices to flags found outside this symmetry (duplicate levels).
     """
     external = external or {}
     l = orbital_l(kappa)
-    floor = 1e-3 * np.max(np.abs(P), axis=0)
-    first = np.argmax(np.abs(P) > floor[None, :], axis=0)
-    sign = np.sign(P[first, np.arange(P.shape[1])])
-    sign[sign == 0] = 1.0
-    vectors = vectors * sign[None, :]
     window = (energies > -2 * c * c) & (energies < 0)
-    P = P[:, window] * sign[window]
-    Q, DP = Q * sign[window], DP * sign[window]
+    sign = _first_sign(P_all)
+    sign[window] = _first_sign(P)
+    vectors = vectors * sign[None, :]
+    P, Q, DP = P * sign[window], Q * sign[window], DP * sign[window]
     nodes = np.full(energies.size, -1)
     residual = np.full(energies.size, np.nan)
     if np.any(window):

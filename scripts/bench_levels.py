@@ -1,0 +1,65 @@
+#!/usr/bin/env python
+"""Benchmark: time to build, solve, refine and sort one symmetry, against a bare eigh.
+
+For each size the script times, in the same run and on the same matrices,
+
+* relbasis: assemble H and S, solve, refine the bound window, evaluate and sort (one kappa);
+* bare:     scipy.linalg.eigh(H, S) with values and vectors, nothing else;
+
+and prints both and their ratio.  It then times a whole default solve (all eight symmetries
+|kappa| <= 4, spline tables included).  Absolute times on shared machines are noisy; the
+ratios are the figures to compare (docs/performance.md).
+
+    python scripts/bench_levels.py [--z 92] [--repeat 7]
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+
+import relbasis  # noqa: F401  (sets the one-thread BLAS default before numpy loads)
+import numpy as np
+import scipy.linalg as sl
+
+from relbasis.config import resolve
+from relbasis.constants import C
+from relbasis.solver import as_config, build_splines, solve, solve_kappa
+
+
+def best_of(fn, repeat):
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t0)
+    return min(times)
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--z", type=int, default=92)
+    ap.add_argument("--repeat", type=int, default=7)
+    args = ap.parse_args()
+
+    print(f"Z = {args.z}, point nucleus, kappa = -1, dkb; best of {args.repeat}")
+    print(f"{'size':>5} {'rows':>5} {'relbasis ms':>12} {'bare eigh ms':>13} {'ratio':>6}")
+    for size in (40, 60, 80, 120, 160):
+        cfg, nuc = resolve(as_config(None, ion={"Z": args.z, "nucleus": "point"}, basis={"size": size}))
+        splines = build_splines(cfg, nuc)
+        table = splines.quadrature(cfg.basis.quadrature)
+        V = nuc.potential(table.r)
+        coarse = splines.quadrature(1)
+        basis, _ = solve_kappa(-1, splines, table, V, "dkb", float(args.z), None, coarse)
+        H, S = basis.matrices(table, V)
+
+        ours = best_of(lambda: solve_kappa(-1, splines, table, V, "dkb", float(args.z), None, coarse), args.repeat)
+        bare = best_of(lambda: sl.eigh(H, S), args.repeat)
+        print(f"{size:>5} {H.shape[0]:>5} {ours * 1e3:>12.2f} {bare * 1e3:>13.2f} {ours / bare:>6.2f}")
+
+    whole = best_of(lambda: solve(None, ion={"Z": args.z, "nucleus": "point"}), args.repeat)
+    print(f"default basis, all eight kappas |kappa| <= 4, spline tables included: {whole * 1e3:.0f} ms")
+
+
+if __name__ == "__main__":
+    main()
