@@ -44,6 +44,8 @@ from .errors import ConfigError, InputError
 from .nucleus import FERMI_MIN_RMS_FM, MODELS, Nucleus, default_rms_radius_fm, make_nucleus
 
 FAMILIES = ("bspline",)
+MAX_SIZE = 2000
+MAX_ORDER = 20
 DEFAULT_KAPPAS = (-1, 1, -2, 2, -3, 3, -4, 4)
 
 
@@ -164,7 +166,11 @@ def _check_basis(d: dict) -> BasisSpec:
             raise ConfigError("basis.family = 'gaussian' is not available in this version; use 'bspline'")
         kw["family"] = _choice("basis.family", fam, FAMILIES)
     order = _integer("basis.order", d.get("order", b.order), 2)
+    if order > MAX_ORDER:
+        raise ConfigError(f"basis.order = {order}: at most {MAX_ORDER} (rounding grows with the degree)")
     size = _integer("basis.size", d.get("size", b.size), 1)
+    if size > MAX_SIZE:
+        raise ConfigError(f"basis.size = {size}: at most {MAX_SIZE} splines (dense matrices of 2 x size rows)")
     if size < order + 4:
         raise ConfigError(f"basis.size = {size} is too small for basis.order = {order}: need size >= order + 4 = {order + 4}")
     kw.update(order=order, size=size)
@@ -188,6 +194,8 @@ def _check_basis(d: dict) -> BasisSpec:
         kw["balance"] = _choice("basis.balance", d["balance"], BALANCES)
     if d.get("quadrature") is not None:
         kw["quadrature"] = _integer("basis.quadrature", d["quadrature"], 2)
+        if kw["quadrature"] > 64:
+            raise ConfigError(f"basis.quadrature = {kw['quadrature']}: at most 64 points per knot interval")
     return replace(b, **kw)
 
 

@@ -114,3 +114,22 @@ def test_module_entry_point_prints_json():
     assert proc.returncode == 0, proc.stderr
     doc = json.loads(proc.stdout)
     assert len(doc["states"]) == sum(doc["basis"]["functions"].values())
+
+
+def test_console_script_prints_json():
+    """The installed `relbasis` command (skipped when the package is not installed)."""
+    import shutil
+
+    exe = shutil.which("relbasis")
+    if exe is None:
+        pytest.skip("the relbasis console script is not on PATH (package not installed)")
+    proc = subprocess.run([exe, "levels", "--z", "92", "--json"], capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    assert json.loads(proc.stdout)["ion"]["Z"] == 92
+
+
+@pytest.mark.parametrize("argv,needle", [(["levels", "--z", "10", "--size", "100000"], "at most"),
+                                         (["levels", "--z", "10", "--order", "40"], "at most")])
+def test_absurd_sizes_are_refused(capsys, argv, needle):
+    code, _, err = run(capsys, *argv)
+    assert code == 2 and needle in err
