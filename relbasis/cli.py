@@ -31,14 +31,18 @@ def _add_model_options(p: argparse.ArgumentParser) -> None:
     ion.add_argument("--nucleus", metavar="MODEL", help="point | sphere | gauss | fermi (default fermi; gauss for the lightest)")
     ion.add_argument("--rms-radius", type=float, metavar="FM", help="rms charge radius in fm")
     basis = p.add_argument_group("basis (override [basis] of the config)")
-    basis.add_argument("--family", help="bspline")
-    basis.add_argument("--size", type=int, help="number of B-splines (default 90)")
+    basis.add_argument("--family", help="bspline | gaussian (default bspline)")
+    basis.add_argument("--size", type=int, help="functions per component (default 90 B-splines, 40 Gaussians)")
     basis.add_argument("--order", type=int, help="B-spline order, degree + 1 (default 10)")
     basis.add_argument("--r-min", type=float, metavar="BOHR", help="first non-zero knot")
     basis.add_argument("--r-max", type=float, metavar="BOHR", help="cavity radius")
     basis.add_argument("--r-scale", type=float, metavar="BOHR", help="log-linear knots: where spacing turns even")
     basis.add_argument("--knots", help="log-linear | exponential")
-    basis.add_argument("--balance", help="none | dkb (default dkb)")
+    basis.add_argument("--balance", help="none | dkb, and rkb for Gaussians (default dkb)")
+    basis.add_argument("--exponent-min", type=float, metavar="ZETA", help="Gaussians: most diffuse exponent (bohr^-2)")
+    basis.add_argument("--exponent-max", type=float, metavar="ZETA", help="Gaussians: tightest exponent (bohr^-2)")
+    basis.add_argument("--overlap-threshold", type=float, metavar="T",
+                       help="canonical orthogonalisation: drop overlap eigenvalues below T x the largest")
     basis.add_argument("--quadrature", type=int, metavar="N", help="Gauss-Legendre points per knot interval")
     p.add_argument("--kappas", metavar="LIST", help="symmetries, e.g. -1,1,-2 (default: |kappa| <= 4)")
 
@@ -47,7 +51,8 @@ def _overrides(args) -> dict:
     ion = {"Z": args.z, "A": args.a, "nucleus": args.nucleus, "rms_radius_fm": args.rms_radius}
     basis = {"family": args.family, "size": args.size, "order": args.order, "r_min": args.r_min,
              "r_max": args.r_max, "r_scale": args.r_scale, "knots": args.knots, "balance": args.balance,
-             "quadrature": args.quadrature}
+             "quadrature": args.quadrature, "exponent_min": args.exponent_min, "exponent_max": args.exponent_max,
+             "overlap_threshold": args.overlap_threshold}
     out = {"ion": {k: v for k, v in ion.items() if v is not None},
            "basis": {k: v for k, v in basis.items() if v is not None}}
     if out["ion"].get("Z") is not None and float(out["ion"]["Z"]).is_integer():
@@ -84,6 +89,29 @@ def _fmt_flags(flags) -> str:
     return ",".join(flags) if flags else ""
 
 
+def basis_line(sol) -> str:
+    """One line describing the basis actually used (defaults resolved)."""
+    b = sol.config.basis
+    if b.family == "gaussian":
+        if b.exponents is not None:
+            rng = f"given exponents {min(b.exponents):.3g}..{max(b.exponents):.3g}"
+        else:
+            rng = f"even-tempered exponents {b.exponent_min:.3g}..{b.exponent_max:.3g}"
+        text = f"basis: gaussian, {b.size} functions per component, {rng} bohr^-2, balance = {b.balance}"
+        dropped = {k: n for k, n in sol.dropped.items() if n}
+        text += "; canonical orthogonalisation dropped " + (
+            ", ".join(f"{n} in kappa {k:+d}" for k, n in dropped.items()) if dropped else "nothing")
+        return text
+    knots = b.knots if isinstance(b.knots, str) else "given"
+    text = (f"basis: bspline, {b.size} splines of order {b.order}, {knots} knots r_min = {b.r_min:.3g}, "
+            f"r_max = {b.r_max:.4g} bohr, balance = {b.balance}")
+    dropped = {k: n for k, n in sol.dropped.items() if n}
+    if dropped or b.overlap_threshold is not None:
+        text += "; canonical orthogonalisation dropped " + (
+            ", ".join(f"{n} in kappa {k:+d}" for k, n in dropped.items()) if dropped else "nothing")
+    return text
+
+
 def levels_table(sol, show_all: bool = False) -> str:
     """The readable table of `relbasis levels`."""
     nuc = sol.nucleus
@@ -92,10 +120,7 @@ def levels_table(sol, show_all: bool = False) -> str:
     lines = []
     radius = "" if point else f", rms radius {nuc.rms_radius_fm:.4f} fm"
     lines.append(f"relbasis {__version__}: Z = {nuc.Z:g}, A = {nuc.A}, {nuc.model} nucleus{radius}; no QED")
-    lines.append(
-        f"basis: {b.family}, {b.size} splines of order {b.order}, {b.knots if isinstance(b.knots, str) else 'given'} knots "
-        f"r_min = {b.r_min:.3g}, r_max = {b.r_max:.4g} bohr, balance = {b.balance}"
-    )
+    lines.append(basis_line(sol))
     lines.append(f"constants: CODATA {constants.CODATA}, alpha = {constants.ALPHA:.13g}, 1 hartree = {constants.HARTREE_EV:.12g} eV")
     lines.append("energies are binding energies eps = E - m c^2")
     lines.append("")

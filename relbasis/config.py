@@ -38,12 +38,18 @@ from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
 
 from .bspline import KNOT_KINDS
-from .constants import C
+from .constants import C, FM_BOHR
 from .dirac import BALANCES
+from .dirac_gaussian import BALANCES as GAUSSIAN_BALANCES
 from .errors import ConfigError, InputError
 from .nucleus import FERMI_MIN_RMS_FM, MODELS, Nucleus, default_rms_radius_fm, make_nucleus
 
-FAMILIES = ("bspline",)
+FAMILIES = ("bspline", "gaussian")
+DEFAULT_SIZE = {"bspline": 90, "gaussian": 40}
+DEFAULT_ORDER = 10
+GAUSS_ZMIN = 1e-3  # x Z^2
+GAUSS_ZMAX_CORE = 1e6  # x Z^2
+GAUSS_ZMAX_NUCLEUS = 3.0  # / R_rms^2
 MAX_SIZE = 2000
 MAX_ORDER = 20
 DEFAULT_KAPPAS = (-1, 1, -2, 2, -3, 3, -4, 4)
@@ -64,14 +70,18 @@ class BasisSpec:
     """Basis settings; None means "choose from the ion" (see :func:`resolve`)."""
 
     family: str = "bspline"
-    size: int = 90
-    order: int = 10
+    size: int | None = None
+    order: int | None = None
     r_min: float | None = None
     r_max: float | None = None
     r_scale: float | None = None
-    knots: str | tuple[float, ...] = "log-linear"
+    knots: str | tuple[float, ...] | None = None
     balance: str = "dkb"
     quadrature: int | None = None
+    exponent_min: float | None = None
+    exponent_max: float | None = None
+    exponents: tuple[float, ...] | None = None
+    overlap_threshold: float | None = None
 
 
 @dataclass(frozen=True)
@@ -157,23 +167,40 @@ def _check_ion(d: dict) -> IonSpec:
     return IonSpec(float(Z) if not float(Z).is_integer() else int(Z), A, nucleus, rms)
 
 
+_BSPLINE_ONLY = ("order", "r_min", "r_max", "r_scale", "knots", "quadrature")
+_GAUSSIAN_ONLY = ("exponent_min", "exponent_max", "exponents")
+
+
 def _check_basis(d: dict) -> BasisSpec:
     b = BasisSpec()
     kw = {}
-    if "family" in d:
-        fam = d["family"]
-        if fam == "gaussian":
-            raise ConfigError("basis.family = 'gaussian' is not available in this version; use 'bspline'")
-        kw["family"] = _choice("basis.family", fam, FAMILIES)
-    order = _integer("basis.order", d.get("order", b.order), 2)
+    family = _choice("basis.family", d["family"], FAMILIES) if "family" in d else b.family
+    kw["family"] = family
+    wrong = [k for k in (_GAUSSIAN_ONLY if family == "bspline" else _BSPLINE_ONLY) if d.get(k) is not None]
+    if wrong:
+        other = "gaussian" if family == "bspline" else "bspline"
+        raise ConfigError(f"basis.{wrong[0]} applies to family = {other!r}, not {family!r}")
+    balances = BALANCES if family == "bspline" else GAUSSIAN_BALANCES
+    if "balance" in d:
+        kw["balance"] = _choice("basis.balance", d["balance"], balances)
+    if d.get("size") is not None:
+        kw["size"] = _integer("basis.size", d["size"], 2)
+        if kw["size"] > MAX_SIZE:
+            raise ConfigError(f"basis.size = {kw['size']}: at most {MAX_SIZE} functions (dense matrices of 2 x size rows)")
+    if d.get("overlap_threshold") is not None:
+        thr = _real("basis.overlap_threshold", d["overlap_threshold"])
+        if thr >= 1e-2:
+            raise ConfigError(f"basis.overlap_threshold = {thr:g}: must be below 1e-2 (typical 1e-12..1e-8)")
+        kw["overlap_threshold"] = thr
+    if family == "gaussian":
+        return replace(b, **kw, **_check_exponents(d, kw.get("size")))
+    order = _integer("basis.order", d["order"], 2) if d.get("order") is not None else DEFAULT_ORDER
     if order > MAX_ORDER:
         raise ConfigError(f"basis.order = {order}: at most {MAX_ORDER} (rounding grows with the degree)")
-    size = _integer("basis.size", d.get("size", b.size), 1)
-    if size > MAX_SIZE:
-        raise ConfigError(f"basis.size = {size}: at most {MAX_SIZE} splines (dense matrices of 2 x size rows)")
+    size = kw.get("size", DEFAULT_SIZE["bspline"])
     if size < order + 4:
         raise ConfigError(f"basis.size = {size} is too small for basis.order = {order}: need size >= order + 4 = {order + 4}")
-    kw.update(order=order, size=size)
+    kw["order"] = order
     for key in ("r_min", "r_max", "r_scale"):
         if d.get(key) is not None:
             kw[key] = _real(f"basis.{key}", d[key])
@@ -190,13 +217,37 @@ def _check_basis(d: dict) -> BasisSpec:
             kw["knots"] = pts
         else:
             raise ConfigError(f"basis.knots = {knots!r}: give 'log-linear', 'exponential' or a list of breakpoints (bohr)")
-    if "balance" in d:
-        kw["balance"] = _choice("basis.balance", d["balance"], BALANCES)
     if d.get("quadrature") is not None:
         kw["quadrature"] = _integer("basis.quadrature", d["quadrature"], 2)
         if kw["quadrature"] > 64:
             raise ConfigError(f"basis.quadrature = {kw['quadrature']}: at most 64 points per knot interval")
     return replace(b, **kw)
+
+
+def _check_exponents(d: dict, size) -> dict:
+    kw = {}
+    if d.get("exponents") is not None:
+        ex = d["exponents"]
+        if isinstance(ex, (str, bytes)) or not hasattr(ex, "__iter__"):
+            raise ConfigError(f"basis.exponents = {ex!r}: give a list of positive numbers (bohr^-2)")
+        vals = tuple(sorted(_real("basis.exponents[]", x) for x in ex))
+        if len(vals) < 2 or len(set(vals)) != len(vals):
+            raise ConfigError("basis.exponents: give at least two distinct positive exponents")
+        if size is not None and size != len(vals):
+            raise ConfigError(f"basis.size = {size} disagrees with the {len(vals)} basis.exponents given; drop one of them")
+        if len(vals) > MAX_SIZE:
+            raise ConfigError(f"basis.exponents: at most {MAX_SIZE} exponents")
+        if d.get("exponent_min") is not None or d.get("exponent_max") is not None:
+            raise ConfigError("basis.exponents is given: drop basis.exponent_min and basis.exponent_max")
+        kw["exponents"] = vals
+        kw["size"] = len(vals)
+        return kw
+    for key in ("exponent_min", "exponent_max"):
+        if d.get(key) is not None:
+            kw[key] = _real(f"basis.{key}", d[key])
+    if "exponent_min" in kw and "exponent_max" in kw and kw["exponent_min"] >= kw["exponent_max"]:
+        raise ConfigError(f"basis.exponent_min = {kw['exponent_min']:g} must be smaller than basis.exponent_max = {kw['exponent_max']:g}")
+    return kw
 
 
 def from_dict(data: dict) -> Config:
@@ -273,6 +324,9 @@ def resolve(config: Config) -> tuple[Config, Nucleus]:
         raise InputError(
             f"Z = {Z:g} gives Z*alpha = {Z / C:.4f} >= 1: a point nucleus has no 1s solution; use a finite nucleus (ion.nucleus = 'fermi')"
         )
+    ion = replace(config.ion, Z=config.ion.Z, A=nuc.A, nucleus=nuc.model, rms_radius_fm=nuc.rms_radius_fm)
+    if b.family == "gaussian":
+        return Config(ion, _resolve_gaussian(b, nuc), config.solve), nuc
     r_max = b.r_max if b.r_max is not None else 150.0 / Z
     if b.r_min is not None:
         r_min = b.r_min
@@ -285,6 +339,33 @@ def resolve(config: Config) -> tuple[Config, Nucleus]:
         raise InputError(f"basis.r_min = {r_min:g} bohr must be smaller than basis.r_max = {r_max:g} bohr")
     r_scale = b.r_scale if b.r_scale is not None else min(20.0 / Z, r_max / 2)
     quad = b.quadrature if b.quadrature is not None else b.order + 4
-    basis = replace(b, r_min=r_min, r_max=r_max, r_scale=r_scale, quadrature=quad)
-    ion = replace(config.ion, Z=config.ion.Z, A=nuc.A, nucleus=nuc.model, rms_radius_fm=nuc.rms_radius_fm)
+    size = b.size if b.size is not None else DEFAULT_SIZE["bspline"]
+    knots = b.knots if b.knots is not None else "log-linear"
+    basis = replace(b, size=size, r_min=r_min, r_max=r_max, r_scale=r_scale, quadrature=quad, knots=knots)
     return Config(ion, basis, config.solve), nuc
+
+
+def default_exponent_range(Z: float, nucleus: Nucleus) -> tuple[float, float]:
+    """Even-tempered range for Gaussians (bohr^-2), chosen by the scan in docs/gaussian.md.
+
+    zeta_min = 1e-3 Z^2 keeps the n = 3 levels (extent ~ n^2/Z); zeta_max = min(1e6 Z^2,
+    3/R_rms^2): tight enough for the relativistic region near the nucleus, and no tighter
+    than the nucleus itself needs (for a point nucleus only the first bound applies).
+    """
+    zmin = GAUSS_ZMIN * Z * Z
+    zmax = GAUSS_ZMAX_CORE * Z * Z
+    if nucleus.model != "point":
+        zmax = min(zmax, GAUSS_ZMAX_NUCLEUS / (nucleus.rms_radius_fm * FM_BOHR) ** 2)
+    return zmin, zmax
+
+
+def _resolve_gaussian(b: BasisSpec, nuc: Nucleus) -> BasisSpec:
+    if b.exponents is not None:
+        return replace(b, order=None, knots=None, size=len(b.exponents))
+    lo, hi = default_exponent_range(float(nuc.Z), nuc)
+    zmin = b.exponent_min if b.exponent_min is not None else lo
+    zmax = b.exponent_max if b.exponent_max is not None else hi
+    if zmin >= zmax:
+        raise InputError(f"basis.exponent_min = {zmin:g} must be smaller than basis.exponent_max = {zmax:g}")
+    size = b.size if b.size is not None else DEFAULT_SIZE["gaussian"]
+    return replace(b, order=None, knots=None, size=size, exponent_min=zmin, exponent_max=zmax)

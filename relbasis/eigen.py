@@ -17,7 +17,7 @@ Three steps, each for a reason measured on the B-spline Dirac matrices:
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.linalg as sl
@@ -25,22 +25,53 @@ import scipy.linalg as sl
 _REFINE_STEPS = 1
 
 
+DEFAULT_THRESHOLD = 1e-12
+"""Canonical orthogonalisation keeps eigenvectors of the scaled S above this share of its largest."""
+
+
 @dataclass(frozen=True)
 class Eigensystem:
-    """All roots (ascending) and S-normalised vectors (columns) of one symmetry."""
+    """All roots (ascending) and S-normalised vectors (columns) of one symmetry.
+
+    ``dropped`` counts the combinations removed by canonical orthogonalisation (0 when the
+    generalized problem was solved directly); ``condition`` is the condition number of the
+    scaled overlap matrix when it was computed (else NaN).
+    """
 
     energies: np.ndarray
     vectors: np.ndarray
     refined: np.ndarray  # bool mask of the roots improved by inverse iteration
+    dropped: int = 0
+    condition: float = float("nan")
+    transform: np.ndarray | None = field(default=None, repr=False)  # T: vectors = T @ y (canonical case)
 
 
-def solve(H: np.ndarray, S: np.ndarray) -> Eigensystem:
-    """All roots and vectors of H c = eps S c (steps 1 and 2 above)."""
+def solve(H: np.ndarray, S: np.ndarray, threshold: float | None = None) -> Eigensystem:
+    """All roots and vectors of H c = eps S c (steps 1 and 2 above).
+
+    With ``threshold`` given, or when S is numerically not positive definite, the problem is
+    solved by canonical orthogonalisation (P.-O. Löwdin, Adv. Quantum Chem. 5, 185 (1970),
+    from memory): with S' = U s U^T the scaled overlap, the combinations X = U_k s_k^(-1/2) with
+    s_k > threshold * max(s) span the basis, and X^T H' X y = eps y is an ordinary symmetric
+    problem of their number of rows.  The others are dropped and counted.
+    """
     d = 1.0 / np.sqrt(np.diag(S))
     Hs = H * d[:, None] * d[None, :]
     Ss = S * d[:, None] * d[None, :]
-    energies, vectors = sl.eigh(Hs, Ss, driver="gvd", check_finite=False)
-    return Eigensystem(energies, vectors * d[:, None], np.zeros(energies.size, dtype=bool))
+    if threshold is None:
+        try:
+            energies, vectors = sl.eigh(Hs, Ss, driver="gvd", check_finite=False)
+            return Eigensystem(energies, vectors * d[:, None], np.zeros(energies.size, dtype=bool))
+        except sl.LinAlgError:
+            threshold = DEFAULT_THRESHOLD
+    s, U = sl.eigh(Ss, check_finite=False)
+    keep = s > threshold * s[-1]
+    X = U[:, keep] / np.sqrt(s[keep])
+    energies, y = sl.eigh(X.T @ Hs @ X, check_finite=False, driver="evd")
+    condition = float(s[-1] / s[0]) if s[0] > 0 else float("inf")
+    T = X * d[:, None]
+    return Eigensystem(energies, T @ y, np.zeros(energies.size, dtype=bool),
+                       int(np.count_nonzero(~keep)), condition, T)
 
 
 def _bandwidths(A: np.ndarray) -> tuple[int, int]:
@@ -60,6 +91,8 @@ def refine(system: Eigensystem, H: np.ndarray, S: np.ndarray, which, order: np.n
     idx = np.flatnonzero(which) if which.dtype == bool else which.astype(int)
     if idx.size == 0:
         return system
+    if system.transform is not None:
+        return _refine_reduced(system, H, S, idx, steps)
     n = H.shape[0]
     perm = np.arange(n) if order is None else np.asarray(order)
     d = 1.0 / np.sqrt(np.diag(S))[perm]
@@ -104,4 +137,27 @@ def refine(system: Eigensystem, H: np.ndarray, S: np.ndarray, which, order: np.n
         vectors[:, j] = v
         refined[j] = True
     sorter = np.argsort(energies, kind="stable")
-    return Eigensystem(energies[sorter], vectors[:, sorter], refined[sorter])
+    return Eigensystem(energies[sorter], vectors[:, sorter], refined[sorter], system.dropped, system.condition)
+
+
+def _refine_reduced(system: Eigensystem, H, S, idx, steps) -> Eigensystem:
+    """Inverse iteration in the span kept by canonical orthogonalisation (vectors = T y)."""
+    T = system.transform
+    Hr, Sr = T.T @ H @ T, T.T @ S @ T
+    energies, vectors, refined = system.energies.copy(), system.vectors.copy(), system.refined.copy()
+    for j in idx:
+        x = T.T @ (S @ vectors[:, j])
+        lu, piv, info = sl.lapack.dgetrf(Hr - energies[j] * Sr)
+        if info < 0:
+            continue
+        for _ in range(steps):
+            y = sl.lapack.dgetrs(lu, piv, Sr @ x)[0]
+            if not np.all(np.isfinite(y)):
+                break
+            x = y / np.sqrt(y @ Sr @ y)
+        else:
+            energies[j] = (x @ Hr @ x) / (x @ Sr @ x)
+            vectors[:, j] = T @ x
+            refined[j] = True
+    sorter = np.argsort(energies, kind="stable")
+    return Eigensystem(energies[sorter], vectors[:, sorter], refined[sorter], system.dropped, system.condition, T)

@@ -18,7 +18,9 @@ from .bspline import BSplineBasis, QuadratureTable, exponential_knots, knots_fro
 from .config import Config, from_dict, load, resolve
 from .constants import C
 from .dirac import DiracBasis
-from .eigen import refine, solve as eigensolve
+from .dirac_gaussian import GaussianDiracBasis
+from .eigen import DEFAULT_THRESHOLD, Eigensystem, refine, solve as eigensolve
+from .gaussian import even_tempered
 from .errors import InputError
 from .nucleus import Nucleus
 from .spectrum import Spectrum, classify, duplicate_roots
@@ -30,9 +32,11 @@ class Solution:
 
     config: Config  # resolved: every default filled in
     nucleus: Nucleus
-    splines: BSplineBasis = field(repr=False)
-    bases: dict[int, DiracBasis] = field(repr=False)
+    splines: BSplineBasis | None = field(repr=False)  # None for the Gaussian family
+    bases: dict[int, DiracBasis | GaussianDiracBasis] = field(repr=False)
     spectra: dict[int, Spectrum] = field(repr=False)
+    dropped: dict[int, int] = field(default_factory=dict)  # functions removed by canonical orthogonalisation
+    condition: dict[int, float] = field(default_factory=dict)  # of the scaled overlap, where computed
 
     @property
     def kappas(self) -> tuple[int, ...]:
@@ -72,6 +76,7 @@ class Solution:
         """The JSON document of DESIGN.md."""
         basis = self.config.to_dict()["basis"]
         basis["functions"] = {str(k): self.bases[k].size for k in self.kappas}
+        basis["dropped"] = {str(k): self.dropped.get(k, 0) for k in self.kappas}
         return {
             "relbasis": __version__,
             "constants": {"alpha": constants.ALPHA, "codata": constants.CODATA, "hartree_eV": constants.HARTREE_EV},
@@ -133,7 +138,8 @@ def build_splines(config: Config, nucleus: Nucleus) -> BSplineBasis:
 
 def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np.ndarray, balance: str,
                 point_charge: float, partner: Spectrum | None = None,
-                coarse: QuadratureTable | None = None) -> tuple[DiracBasis, Spectrum]:
+                coarse: QuadratureTable | None = None,
+                threshold: float | None = None) -> tuple[DiracBasis, Spectrum, Eigensystem]:
     """Basis, matrices, roots, refinement and sorting for one symmetry.
 
     ``coarse`` (one point per knot interval) serves to fix the sign of the continuum roots
@@ -142,7 +148,7 @@ def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np
     basis = DiracBasis.build(splines, kappa, balance, C, point_charge)
     local = basis.local_channels(table)
     H, S = basis.matrices(table, V, local)
-    system = eigensolve(H, S)
+    system = eigensolve(H, S, threshold)
     system = refine(system, H, S, (system.energies > -2 * C * C) & (system.energies < 0), basis.band_order())
     window = (system.energies > -2 * C * C) & (system.energies < 0)
     coarse = coarse or splines.quadrature(1)
@@ -150,20 +156,62 @@ def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np
     P, Q, DP = local.evaluate(system.vectors[:, window], "PQD")
     external = duplicate_roots(kappa, system.energies, partner)
     spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, table.w.ravel(), V.ravel(), C, external)
-    return basis, spec
+    return basis, spec, system
+
+
+def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, balance: str, grid,
+                         threshold: float | None, partner: Spectrum | None = None):
+    """The Gaussian counterpart of :func:`solve_kappa` (dense functions, one radial grid)."""
+    basis = GaussianDiracBasis.build(exponents, kappa, balance, C)
+    r, w = grid
+    H, S = basis.matrices(nucleus, grid)
+    system = eigensolve(H, S, threshold if threshold is not None else DEFAULT_THRESHOLD)
+    system = refine(system, H, S, (system.energies > -2 * C * C) & (system.energies < 0))
+    window = (system.energies > -2 * C * C) & (system.energies < 0)
+    Pm, Qm, Dm = basis.components(r)
+    P_all = Pm @ system.vectors
+    v = system.vectors[:, window]
+    external = duplicate_roots(kappa, system.energies, partner)
+    spec = classify(kappa, system.energies, system.vectors, P_all, P_all[:, window], Qm @ v, Dm @ v, w,
+                    nucleus.potential(r), C, external)
+    return basis, spec, system
 
 
 def solve(config=None, **overrides) -> Solution:
     """Spectra of the requested symmetries (see :func:`as_config` for the ways to pass a config)."""
     cfg, nucleus = resolve(as_config(config, **overrides))
+    if cfg.basis.family == "gaussian":
+        return _solve_gaussian(cfg, nucleus)
     splines = build_splines(cfg, nucleus)
     table = splines.quadrature(cfg.basis.quadrature)
     V = nucleus.potential(table.r)
     coarse = splines.quadrature(1)
     point_charge = float(nucleus.Z) if nucleus.model == "point" else 0.0
     bases, spectra = {}, {}
-    for kappa in sorted(cfg.solve.kappas, key=lambda k: (k > 0, abs(k))):
-        bases[kappa], spectra[kappa] = solve_kappa(
-            kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa), coarse
-        )
-    return Solution(cfg, nucleus, splines, bases, spectra)
+    systems = {}
+    for kappa in _kappa_order(cfg):
+        bases[kappa], spectra[kappa], systems[kappa] = solve_kappa(
+            kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa), coarse,
+            cfg.basis.overlap_threshold)
+    return _solution(cfg, nucleus, splines, bases, spectra, systems)
+
+
+def _kappa_order(cfg: Config):
+    """Negative kappas first: the duplicate-level check of kappa > 0 looks at -kappa."""
+    return sorted(cfg.solve.kappas, key=lambda k: (k > 0, abs(k)))
+
+
+def _solution(cfg, nucleus, splines, bases, spectra, systems: dict[int, Eigensystem]) -> Solution:
+    return Solution(cfg, nucleus, splines, bases, spectra,
+                    {k: s.dropped for k, s in systems.items()}, {k: s.condition for k, s in systems.items()})
+
+
+def _solve_gaussian(cfg: Config, nucleus: Nucleus) -> Solution:
+    b = cfg.basis
+    exps = np.asarray(b.exponents) if b.exponents is not None else even_tempered(b.size, b.exponent_min, b.exponent_max)
+    grid = GaussianDiracBasis.build(exps, -1, b.balance, C).grid(nucleus)
+    bases, spectra, systems = {}, {}, {}
+    for kappa in _kappa_order(cfg):
+        bases[kappa], spectra[kappa], systems[kappa] = solve_kappa_gaussian(
+            kappa, exps, nucleus, b.balance, grid, b.overlap_threshold, spectra.get(-kappa))
+    return _solution(cfg, nucleus, None, bases, spectra, systems)

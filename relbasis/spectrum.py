@@ -38,10 +38,11 @@ import numpy as np
 from .analytic import j_twice, orbital_l
 
 BRANCHES = ("negative", "bound", "positive", "spurious")
-BALANCE_THRESHOLD = 0.5
-"""Largest balance residual of a root accepted as a bound state.  Converged states measure
-1e-8..1e-3, states squeezed by the cavity wall up to a few 1e-2; the spurious roots of the
-unbalanced basis measure 5..300 (Z = 1..92, |kappa| <= 4, default grid)."""
+BALANCE_THRESHOLD = 0.1
+"""Largest balance residual of a root accepted as a bound state.  Every bound state of the
+balanced default bases (B-spline DKB, Gaussian RKB and DKB; Z = 1..118, |kappa| <= 4, all
+nuclear models) measures at most 1.3e-2; the spurious roots of unbalanced bases measure 0.5
+to 1000."""
 NODE_FLOOR = 1e-6
 """A lobe of P (a stretch of one sign) counts only if it holds this share of the norm integral.
 The innermost lobe of a hydrogen-like ns state holds 8e-4 for n = 8 (measured, default basis)."""

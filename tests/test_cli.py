@@ -133,3 +133,35 @@ def test_console_script_prints_json():
 def test_absurd_sizes_are_refused(capsys, argv, needle):
     code, _, err = run(capsys, *argv)
     assert code == 2 and needle in err
+
+
+def test_gaussian_family_from_flags_and_from_toml(tmp_path, capsys):
+    code, out, _ = run(capsys, "levels", "--family", "gaussian", "--z", "54", "--nucleus", "gauss",
+                       "--balance", "rkb", "--kappas", "-1,1")
+    assert code == 0 and "gaussian, 40 functions" in out and "dropped nothing" in out
+    assert "1s1/2" in out and "2p1/2" in out
+    cfg = tmp_path / "g.toml"
+    cfg.write_text('[ion]\nZ = 54\nnucleus = "gauss"\n[basis]\nfamily = "gaussian"\nbalance = "dkb"\n'
+                   'size = 30\nexponent_min = 2.0\nexponent_max = 1e8\n[solve]\nkappas = [-1]\n')
+    code, out, _ = run(capsys, "levels", str(cfg), "--json")
+    doc = json.loads(out)
+    assert code == 0 and doc["basis"]["family"] == "gaussian" and doc["basis"]["size"] == 30
+    assert doc["basis"]["exponent_max"] == 1e8 and doc["basis"]["dropped"] == {"-1": 0}
+    assert doc["states"][len(doc["states"]) // 2]["label"] == "1s1/2"
+
+
+@pytest.mark.parametrize(
+    "argv,needle",
+    [
+        (["levels", "--z", "10", "--exponent-min", "1"], "applies to family = 'gaussian'"),
+        (["levels", "--z", "10", "--family", "gaussian", "--order", "7"], "applies to family = 'bspline'"),
+        (["levels", "--z", "10", "--balance", "rkb"], "basis.balance"),
+        (["levels", "--z", "10", "--family", "gaussian", "--exponent-min", "5", "--exponent-max", "1"], "exponent_min"),
+        (["levels", "--z", "10", "--family", "gaussian", "--overlap-threshold", "0.5"], "overlap_threshold"),
+        (["levels", "--z", "10", "--family", "gausian"], "gaussian"),
+    ],
+)
+def test_gaussian_input_errors(capsys, argv, needle):
+    code, out, err = run(capsys, *argv)
+    assert code == 2 and out == "" and len(err.strip().splitlines()) == 1
+    assert needle in err

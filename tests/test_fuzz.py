@@ -60,6 +60,14 @@ def valid_config(draw):
     }
     if draw(st.booleans()):
         cfg["ion"]["A"] = draw(st.integers(1, 300))
+    if draw(st.integers(0, 3)) == 0:  # the Gaussian family, with its own keys
+        cfg["basis"] = {"family": "gaussian", "size": draw(st.integers(2, 30)),
+                        "balance": draw(st.sampled_from(["none", "rkb", "dkb"]))}
+        if draw(st.booleans()):
+            cfg["basis"]["exponent_min"] = draw(st.floats(1e-4, 1e3))
+        if draw(st.booleans()):
+            cfg["basis"]["exponent_max"] = draw(st.floats(1.0, 1e12))
+        return cfg
     if draw(st.booleans()):
         cfg["basis"]["r_max"] = draw(st.floats(0.01, 500))
     if draw(st.booleans()):
@@ -107,6 +115,6 @@ def test_any_config_gives_a_result_or_an_input_error(cfg):
         return
     for kappa in sol.kappas:
         spec = sol[kappa]
-        assert len(spec) == sol.bases[kappa].size
+        assert len(spec) == sol.bases[kappa].size - sol.dropped[kappa]
         assert all(math.isfinite(e) for e in spec.energies)
         assert set(spec.branches) <= {"negative", "bound", "positive", "spurious"}
