@@ -47,7 +47,6 @@ from .nucleus import FERMI_MIN_RMS_FM, MODELS, Nucleus, default_rms_radius_fm, m
 FAMILIES = ("bspline", "gaussian")
 DEFAULT_SIZE = {"bspline": 90, "gaussian": 40}
 DEFAULT_ORDER = 10
-GAUSS_ZMIN = 1e-3  # x Z^2
 GAUSS_ZMAX_CORE = 1e6  # x Z^2
 GAUSS_ZMAX_NUCLEUS = 3.0  # / R_rms^2
 MAX_SIZE = 2000
@@ -345,14 +344,19 @@ def resolve(config: Config) -> tuple[Config, Nucleus]:
     return Config(ion, basis, config.solve), nuc
 
 
-def default_exponent_range(Z: float, nucleus: Nucleus) -> tuple[float, float]:
-    """Even-tempered range for Gaussians (bohr^-2), chosen by the scan in docs/gaussian.md.
+def default_exponent_range(Z: float, nucleus: Nucleus, balance: str = "dkb") -> tuple[float, float]:
+    """Even-tempered range for Gaussians (bohr^-2), chosen by the scans in docs/gaussian.md.
 
-    zeta_min = 1e-3 Z^2 keeps the n = 3 levels (extent ~ n^2/Z); zeta_max = min(1e6 Z^2,
-    3/R_rms^2): tight enough for the relativistic region near the nucleus, and no tighter
-    than the nucleus itself needs (for a point nucleus only the first bound applies).
+    zeta_max = min(1e6 Z^2, 3/R_rms^2): tight enough for the relativistic region near the
+    nucleus and no tighter than the nucleus needs (a point nucleus has only the first bound).
+    zeta_min = 1e-3 Z^2 keeps the n = 3 levels (extent ~ n^2/Z) for DKB.  RKB (and the
+    unbalanced set) get zeta_min = 10^(-3 - 2 (Z/92)^2) Z^2: for kappa > 0 every RKB small
+    function D+G obeys int r^kappa D+G dr = 0, a constraint the exact small component does not
+    obey and that only very diffuse functions can offset; at Z = 92 the 2p1/2 level stalls at
+    -2.5e-7 with zeta_min = 1e-3 Z^2 and reaches -3e-9 with 1e-5 Z^2 (40 functions).
     """
-    zmin = GAUSS_ZMIN * Z * Z
+    factor = 1e-3 if balance == "dkb" else 10.0 ** (-3.0 - 2.0 * (Z / 92.0) ** 2)
+    zmin = factor * Z * Z
     zmax = GAUSS_ZMAX_CORE * Z * Z
     if nucleus.model != "point":
         zmax = min(zmax, GAUSS_ZMAX_NUCLEUS / (nucleus.rms_radius_fm * FM_BOHR) ** 2)
@@ -362,7 +366,7 @@ def default_exponent_range(Z: float, nucleus: Nucleus) -> tuple[float, float]:
 def _resolve_gaussian(b: BasisSpec, nuc: Nucleus) -> BasisSpec:
     if b.exponents is not None:
         return replace(b, order=None, knots=None, size=len(b.exponents))
-    lo, hi = default_exponent_range(float(nuc.Z), nuc)
+    lo, hi = default_exponent_range(float(nuc.Z), nuc, b.balance)
     zmin = b.exponent_min if b.exponent_min is not None else lo
     zmax = b.exponent_max if b.exponent_max is not None else hi
     if zmin >= zmax:

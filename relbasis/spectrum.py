@@ -19,9 +19,10 @@ practice for screened and finite-nucleus potentials).  Flags, each with the figu
 ``node-count``
     P has fewer nodes than the next level of the series needs: the root repeats a lower level
     (marks it spurious).
-``extra-nodes``
-    P has more nodes than its n allows: ripples of a state the basis does not resolve.  The
-    root stays ``bound`` (it is the physical level, poorly converged); the flag is a warning.
+
+More nodes than n allows are ripples of a state the basis does not resolve (typically a high
+Rydberg level of a wide Gaussian set): the root stays ``bound`` and unflagged, and
+``Spectrum.nodes`` keeps the count for diagnostics.
 ``duplicate-level``
     The level coincides with a level of the partner symmetry -kappa whose n has no counterpart
     in kappa (kappa > 0 has no n = kappa state): it mirrors a state of the wrong symmetry
@@ -171,9 +172,9 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
         if why:
             branches.append("spurious"), ns.append(None), labels.append(None), flags.append(tuple(why))
             continue
-        # more nodes than the series allows: ripples of a state the basis does not resolve
-        warn = ("extra-nodes",) if nodes[i] + l + 1 > expected else ()
-        branches.append("bound"), ns.append(expected), labels.append(orbital_label(expected, kappa)), flags.append(warn)
+        # more nodes than n allows are ripples of a state the basis does not resolve (high n):
+        # the root is still that physical level; ``nodes`` keeps the count for diagnostics
+        branches.append("bound"), ns.append(expected), labels.append(orbital_label(expected, kappa)), flags.append(())
         expected += 1
     return Spectrum(kappa, energies, vectors, tuple(branches), tuple(ns), tuple(labels), tuple(flags),
                     nodes, residual)
