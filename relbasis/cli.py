@@ -44,6 +44,7 @@ def _add_model_options(p: argparse.ArgumentParser) -> None:
     basis.add_argument("--overlap-threshold", type=float, metavar="T",
                        help="canonical orthogonalisation: drop overlap eigenvalues below T x the largest")
     basis.add_argument("--quadrature", type=int, metavar="N", help="Gauss-Legendre points per knot interval")
+    basis.add_argument("--wall", help="B-splines: dirichlet (P(R) = Q(R) = 0) | bag (P(R) = -Q(R))")
     p.add_argument("--kappas", metavar="LIST", help="symmetries, e.g. -1,1,-2 (default: |kappa| <= 4)")
 
 
@@ -52,7 +53,7 @@ def _overrides(args) -> dict:
     basis = {"family": args.family, "size": args.size, "order": args.order, "r_min": args.r_min,
              "r_max": args.r_max, "r_scale": args.r_scale, "knots": args.knots, "balance": args.balance,
              "quadrature": args.quadrature, "exponent_min": args.exponent_min, "exponent_max": args.exponent_max,
-             "overlap_threshold": args.overlap_threshold}
+             "overlap_threshold": args.overlap_threshold, "wall": args.wall}
     out = {"ion": {k: v for k, v in ion.items() if v is not None},
            "basis": {k: v for k, v in basis.items() if v is not None}}
     if out["ion"].get("Z") is not None and float(out["ion"]["Z"]).is_integer():
@@ -104,7 +105,7 @@ def basis_line(sol) -> str:
         return text
     knots = b.knots if isinstance(b.knots, str) else "given"
     text = (f"basis: bspline, {b.size} splines of order {b.order}, {knots} knots r_min = {b.r_min:.3g}, "
-            f"r_max = {b.r_max:.4g} bohr, balance = {b.balance}")
+            f"r_max = {b.r_max:.4g} bohr, balance = {b.balance}, wall = {b.wall}")
     dropped = {k: n for k, n in sol.dropped.items() if n}
     if dropped or b.overlap_threshold is not None:
         text += "; canonical orthogonalisation dropped " + (
@@ -116,9 +117,9 @@ def levels_table(sol, show_all: bool = False) -> str:
     """The readable table of `relbasis levels`."""
     nuc = sol.nucleus
     b = sol.config.basis
-    point = nuc.model == "point"
+    point = nuc.model == "point" and nuc.Z > 0
     lines = []
-    radius = "" if point else f", rms radius {nuc.rms_radius_fm:.4f} fm"
+    radius = f", rms radius {nuc.rms_radius_fm:.4f} fm" if nuc.rms_radius_fm is not None else ""
     lines.append(f"relbasis {__version__}: Z = {nuc.Z:g}, A = {nuc.A}, {nuc.model} nucleus{radius}; no QED")
     lines.append(basis_line(sol))
     lines.append(f"constants: CODATA {constants.CODATA}, alpha = {constants.ALPHA:.13g}, 1 hartree = {constants.HARTREE_EV:.12g} eV")

@@ -39,7 +39,7 @@ from pathlib import Path
 
 from .bspline import KNOT_KINDS
 from .constants import C, FM_BOHR
-from .dirac import BALANCES
+from .dirac import BALANCES, WALLS
 from .dirac_gaussian import BALANCES as GAUSSIAN_BALANCES
 from .errors import ConfigError, InputError
 from .nucleus import FERMI_MIN_RMS_FM, MODELS, Nucleus, default_rms_radius_fm, make_nucleus
@@ -76,6 +76,7 @@ class BasisSpec:
     r_scale: float | None = None
     knots: str | tuple[float, ...] | None = None
     balance: str = "dkb"
+    wall: str | None = None
     quadrature: int | None = None
     exponent_min: float | None = None
     exponent_max: float | None = None
@@ -158,15 +159,15 @@ def _check_ion(d: dict) -> IonSpec:
     if "Z" not in d:
         raise ConfigError("ion.Z is missing: the nuclear charge is required (e.g. Z = 92)")
     Z = d["Z"]
-    if isinstance(Z, bool) or not isinstance(Z, numbers.Real) or not math.isfinite(float(Z)) or Z <= 0:
-        raise ConfigError(f"ion.Z = {Z!r}: must be a number > 0")
+    if isinstance(Z, bool) or not isinstance(Z, numbers.Real) or not math.isfinite(float(Z)) or Z < 0:
+        raise ConfigError(f"ion.Z = {Z!r}: must be a number >= 0 (0: a free particle in the cavity)")
     A = None if d.get("A") is None else _integer("ion.A", d["A"], 1)
     nucleus = None if d.get("nucleus") is None else _choice("ion.nucleus", d["nucleus"], MODELS)
     rms = None if d.get("rms_radius_fm") is None else _real("ion.rms_radius_fm", d["rms_radius_fm"])
     return IonSpec(float(Z) if not float(Z).is_integer() else int(Z), A, nucleus, rms)
 
 
-_BSPLINE_ONLY = ("order", "r_min", "r_max", "r_scale", "knots", "quadrature")
+_BSPLINE_ONLY = ("order", "r_min", "r_max", "r_scale", "knots", "quadrature", "wall")
 _GAUSSIAN_ONLY = ("exponent_min", "exponent_max", "exponents")
 
 
@@ -182,6 +183,8 @@ def _check_basis(d: dict) -> BasisSpec:
     balances = BALANCES if family == "bspline" else GAUSSIAN_BALANCES
     if "balance" in d:
         kw["balance"] = _choice("basis.balance", d["balance"], balances)
+    if d.get("wall") is not None:
+        kw["wall"] = _choice("basis.wall", d["wall"], WALLS)
     if d.get("size") is not None:
         kw["size"] = _integer("basis.size", d["size"], 2)
         if kw["size"] > MAX_SIZE:
@@ -291,6 +294,8 @@ def default_nucleus(ion: IonSpec) -> str:
     """Fermi where the Fermi shape can reach the rms radius, otherwise Gauss (lightest nuclei)."""
     if ion.nucleus is not None:
         return ion.nucleus
+    if ion.Z == 0:
+        return "point"  # no nucleus at all: V = 0
     rms = ion.rms_radius_fm
     if rms is None and ion.A is not None:
         rms = default_rms_radius_fm(ion.A)
@@ -325,10 +330,16 @@ def resolve(config: Config) -> tuple[Config, Nucleus]:
         )
     ion = replace(config.ion, Z=config.ion.Z, A=nuc.A, nucleus=nuc.model, rms_radius_fm=nuc.rms_radius_fm)
     if b.family == "gaussian":
+        if Z == 0:
+            raise InputError("ion.Z = 0 (a free particle) needs the B-spline family and basis.r_max (the cavity radius)")
         return Config(ion, _resolve_gaussian(b, nuc), config.solve), nuc
+    if Z == 0 and b.r_max is None and not isinstance(b.knots, tuple):
+        raise InputError("ion.Z = 0 (a free particle) needs basis.r_max, the cavity radius in bohr")
     r_max = b.r_max if b.r_max is not None else 150.0 / Z
     if b.r_min is not None:
         r_min = b.r_min
+    elif Z == 0:
+        r_min = 1e-3 * r_max  # smooth spherical-Bessel functions: no structure near the origin
     elif nuc.model == "point":
         gamma = math.sqrt(1.0 - (Z / C) ** 2)
         r_min = 10.0 ** (-6.0 - 5.0 * (1.0 - gamma)) / Z
@@ -336,11 +347,15 @@ def resolve(config: Config) -> tuple[Config, Nucleus]:
         r_min = nuc.radius_bohr / 10.0
     if r_min >= r_max:
         raise InputError(f"basis.r_min = {r_min:g} bohr must be smaller than basis.r_max = {r_max:g} bohr")
-    r_scale = b.r_scale if b.r_scale is not None else min(20.0 / Z, r_max / 2)
+    if b.r_scale is not None:
+        r_scale = b.r_scale
+    else:
+        r_scale = r_max / 20 if Z == 0 else min(20.0 / Z, r_max / 2)
     quad = b.quadrature if b.quadrature is not None else b.order + 4
     size = b.size if b.size is not None else DEFAULT_SIZE["bspline"]
     knots = b.knots if b.knots is not None else "log-linear"
-    basis = replace(b, size=size, r_min=r_min, r_max=r_max, r_scale=r_scale, quadrature=quad, knots=knots)
+    wall = b.wall if b.wall is not None else "dirichlet"
+    basis = replace(b, size=size, r_min=r_min, r_max=r_max, r_scale=r_scale, quadrature=quad, knots=knots, wall=wall)
     return Config(ion, basis, config.solve), nuc
 
 

@@ -48,6 +48,7 @@ from .bspline import BSplineBasis, QuadratureTable
 from .errors import InputError
 
 BALANCES = ("none", "dkb")
+WALLS = ("dirichlet", "bag")
 
 
 @dataclass(frozen=True)
@@ -59,43 +60,52 @@ class Family:
     balance_radius: float = 0.0  # Z_s / 2c^2 of the factor g(r) = r / (r + Z_s/2c^2)
 
     def channels(self, b: np.ndarray, r: np.ndarray, kappa: int, c: float, index: np.ndarray):
-        """(P, Q, D+P) of the family's functions from spline derivatives b[0..2] at radii r.
+        """(P, Q, D+P, D-Q) of the family's functions from spline derivatives b[0..2] at radii r.
 
         ``b`` has shape (3, ..., n) with the points along the middle axes, ``r`` broadcasts
         against ``b[0]`` once a trailing axis is added, and ``index`` (broadcasting against
-        ``b[0]``) gives the spline index of each column.
+        ``b[0]``) gives the spline index of each column.  D-Q enters only the diagnostics.
         """
         r = r[..., None]
         B, dB, d2B = b[0], b[1], b[2]
-        if self.kind == "large":
-            return B, np.zeros_like(B), dB + kappa * B / r
-        if self.kind == "small":
-            return np.zeros_like(B), B, np.zeros_like(B)
         a = self.balance_radius
         g, dg = (r / (r + a), a / (r + a) ** 2) if a > 0 else (1.0, 0.0)
+        zero = np.zeros_like(B)
+        if self.kind == "large":
+            return B, zero, dB + kappa * B / r, zero
+        if self.kind == "small":
+            return zero, B, zero, dB - kappa * B / r
         if self.kind == "upper":
             dplus = dB + kappa * B / r
-            return B, g * dplus / (2 * c), dplus
+            dminus_dplus = d2B - kappa * (kappa + 1) * B / r**2
+            return B, g * dplus / (2 * c), dplus, (dg * dplus + g * dminus_dplus) / (2 * c)
         if self.kind == "lower":
             dminus = dB - kappa * B / r
-            return g * dminus / (2 * c), B, (dg * dminus + g * (d2B - kappa * (kappa - 1) * B / r**2)) / (2 * c)
+            dplus_dminus = d2B - kappa * (kappa - 1) * B / r**2
+            return g * dminus / (2 * c), B, (dg * dminus + g * dplus_dminus) / (2 * c), dminus
         raise AssertionError(self.kind)
 
 
-def families(balance: str, kappa: int, n_splines: int, point_charge: float = 0.0, c: float = 1.0) -> tuple[Family, ...]:
+def families(balance: str, kappa: int, n_splines: int, point_charge: float = 0.0, c: float = 1.0,
+             wall: str = "dirichlet") -> tuple[Family, ...]:
     """The function families of a balance scheme, with the boundary conditions applied.
 
     ``point_charge`` is Z_s, the charge of a point-Coulomb singularity of the potential (Z for
-    a point nucleus, 0 otherwise); it sets the DKB factor g(r) = r / (r + Z_s/2c^2).
+    a point nucleus, 0 otherwise); it sets the DKB factor g(r) = r / (r + Z_s/2c^2).  With
+    ``wall = "bag"`` no spline is removed at r_max: the bag condition enters as a boundary
+    term of H instead (:meth:`DiracBasis.wall_matrix`).
     """
+    if wall not in WALLS:
+        raise InputError(f"basis.wall = {wall!r}: valid are {', '.join(WALLS)}")
     if balance == "none":
-        keep = np.arange(1, n_splines - 1)
+        keep = np.arange(1, n_splines - (1 if wall == "dirichlet" else 0))
         return Family("large", keep), Family("small", keep)
     if balance == "dkb":
         a = point_charge / (2 * c * c)
         singular = a > 0
-        upper = np.arange(1 if (kappa == -1 or singular) else 2, n_splines - 2)
-        lower = np.arange(1 if (kappa == +1 or singular) else 2, n_splines - 2)
+        end = n_splines - (2 if wall == "dirichlet" else 0)
+        upper = np.arange(1 if (kappa == -1 or singular) else 2, end)
+        lower = np.arange(1 if (kappa == +1 or singular) else 2, end)
         return Family("upper", upper, a), Family("lower", lower, a)
     raise InputError(f"basis.balance = {balance!r}: valid for B-splines are {', '.join(BALANCES)}")
 
@@ -109,14 +119,16 @@ class DiracBasis:
     balance: str
     c: float
     families: tuple[Family, ...]
+    wall: str = "dirichlet"
 
     @classmethod
-    def build(cls, splines: BSplineBasis, kappa: int, balance: str, c: float, point_charge: float = 0.0) -> "DiracBasis":
+    def build(cls, splines: BSplineBasis, kappa: int, balance: str, c: float, point_charge: float = 0.0,
+              wall: str = "dirichlet") -> "DiracBasis":
         """The basis of symmetry kappa; ``point_charge`` = Z for a point nucleus, else 0."""
         if isinstance(kappa, bool) or int(kappa) != kappa or kappa == 0:
             raise InputError(f"kappa = {kappa!r}: must be a non-zero integer (kappa = -(l+1) or +l)")
-        fams = families(balance, int(kappa), splines.size, point_charge, c)
-        return cls(splines, int(kappa), balance, c, fams)
+        fams = families(balance, int(kappa), splines.size, point_charge, c, wall)
+        return cls(splines, int(kappa), balance, c, fams, wall)
 
     @property
     def size(self) -> int:
@@ -143,11 +155,26 @@ class DiracBasis:
         return maps
 
     def components(self, r: np.ndarray):
-        """Dense (P, Q, D+P) of every basis function at radii r: three (len(r), size) arrays."""
+        """Dense (P, Q, D+P, D-Q) of every basis function at radii r: four (len(r), size) arrays."""
         r = np.asarray(r, dtype=float)
         b = self.splines.evaluate(r, 2)
         parts = [f.channels(b[:, :, f.splines], r, self.kappa, self.c, f.splines[None, :]) for f in self.families]
-        return tuple(np.concatenate([p[i] for p in parts], axis=1) for i in range(3))
+        return tuple(np.concatenate([p[i] for p in parts], axis=1) for i in range(4))
+
+    def wall_matrix(self) -> np.ndarray:
+        """Boundary term of the bag wall, added to H (zero for the Dirichlet wall).
+
+        The symmetric weak form below (derivative on P only) has the natural boundary
+        condition Q(R) = 0.  Writing it as the form with derivatives on both components,
+        (c/2) int (Q D+P - P D-Q), plus (c/2)(P(R)^2 - Q(R)^2), the natural condition becomes
+        (P + Q)(R) = 0, the MIT bag condition P(R) = -Q(R) in our sign convention
+        (docs/audit.md).  Per pair of functions that is
+        H_fg += (c/2) [fP gP - fQ gQ - fP gQ - fQ gP] at r = R.
+        """
+        if self.wall == "dirichlet":
+            return np.zeros((self.size, self.size))
+        P, Q = (x[0] for x in self.components(np.array([self.splines.r_max]))[:2])
+        return 0.5 * self.c * (np.outer(P, P) - np.outer(Q, Q) - np.outer(P, Q) - np.outer(Q, P))
 
     def _local_index(self, table: QuadratureTable) -> np.ndarray:
         """Row of H of each local slot (n_int, slots), -1 where the spline is removed."""
@@ -162,13 +189,13 @@ class DiracBasis:
         for f, g in zip(self.families, self._global_index()):
             chans.append(f.channels(table.values, table.r, self.kappa, self.c, cols[:, None, :]))
             index.append(g[cols])
-        P, Q, DP = (np.concatenate([ch[i] for ch in chans], axis=-1) for i in range(3))
-        return P, Q, DP, np.concatenate(index, axis=1)
+        P, Q, DP, DQ = (np.concatenate([ch[i] for ch in chans], axis=-1) for i in range(4))
+        return P, Q, DP, DQ, np.concatenate(index, axis=1)
 
     def local_channels(self, table: QuadratureTable) -> "LocalChannels":
-        """(P, Q, D+P) of the functions on every interval of the table, for reuse."""
-        P, Q, DP, idx = self._local(table)
-        return LocalChannels(P, Q, DP, idx)
+        """(P, Q, D+P, D-Q) of the functions on every interval of the table, for reuse."""
+        P, Q, DP, DQ, idx = self._local(table)
+        return LocalChannels(P, Q, DP, DQ, idx)
 
     def evaluate_on(self, table: QuadratureTable, coefficients: np.ndarray, channels: str = "PQD",
                     local: "LocalChannels | None" = None):
@@ -193,7 +220,7 @@ class DiracBasis:
         H_loc = _bt(potential[..., None] * wP, P) + _bt((potential[..., None] - 2 * self.c**2) * wQ, Q)
         H_loc += self.c * (cross + cross.transpose(0, 2, 1))
         n = self.size
-        H = _scatter(H_loc, idx, n)
+        H = _scatter(H_loc, idx, n) + self.wall_matrix()
         S = _scatter(S_loc, idx, n)
         return H, S
 
@@ -205,11 +232,12 @@ class LocalChannels:
     P: np.ndarray
     Q: np.ndarray
     DP: np.ndarray
+    DQ: np.ndarray
     index: np.ndarray  # (n_int, slots), -1 where the spline is removed
 
     def dense(self, channel: str, size: int) -> np.ndarray:
         """One channel ("P", "Q" or "D") as a dense (n_int * nq, size) matrix of the basis functions."""
-        M = {"P": self.P, "Q": self.Q, "D": self.DP}[channel]
+        M = {"P": self.P, "Q": self.Q, "D": self.DP, "M": self.DQ}[channel]
         n_int, nq, slots = M.shape
         out = np.zeros((n_int * nq, size))
         rows = np.broadcast_to(np.arange(n_int * nq).reshape(n_int, nq, 1), M.shape)
@@ -219,11 +247,12 @@ class LocalChannels:
         return out
 
     def evaluate(self, coefficients: np.ndarray, channels: str = "PQD"):
-        """Channels of the functions with the given coefficients (rows x m): (n_int * nq, m) each."""
+        """Channels ("P", "Q", "D" = D+P, "M" = D-Q) of the functions with the given coefficients
+        (rows x m): (n_int * nq, m) each."""
         m = coefficients.shape[1]
         coef = np.where((self.index >= 0)[..., None], coefficients[np.maximum(self.index, 0)], 0.0)
         shape = (self.P.shape[0] * self.P.shape[1], m)
-        chans = {"P": self.P, "Q": self.Q, "D": self.DP}
+        chans = {"P": self.P, "Q": self.Q, "D": self.DP, "M": self.DQ}
         return tuple(np.matmul(chans[ch], coef).reshape(shape) for ch in channels)
 
 

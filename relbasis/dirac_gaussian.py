@@ -48,6 +48,7 @@ class GaussFamily:
     P: GaussPoly = field(repr=False)
     Q: GaussPoly = field(repr=False)
     DP: GaussPoly = field(repr=False)
+    DQ: GaussPoly | None = field(default=None, repr=False)  # D-Q, for the diagnostics
 
     @property
     def size(self) -> int:
@@ -55,6 +56,11 @@ class GaussFamily:
 
 
 def gaussian_families(balance: str, kappa: int, exps: np.ndarray, c: float) -> tuple[GaussFamily, ...]:
+    fams = _families(balance, kappa, exps, c)
+    return tuple(GaussFamily(f.kind, f.P, f.Q, f.DP, _dplus(f.Q, kappa, -1)) for f in fams)
+
+
+def _families(balance: str, kappa: int, exps: np.ndarray, c: float) -> tuple[GaussFamily, ...]:
     l = orbital_l(kappa)
     lbar = l + 1 if kappa < 0 else l - 1  # lbar = 2j - l
     G = GaussPoly.monomial(exps, l + 1)
@@ -101,10 +107,10 @@ class GaussianDiracBasis:
     def _stack(self, name: str) -> list[GaussPoly]:
         return [getattr(f, name) for f in self.families]
 
-    def components(self, r: np.ndarray):
-        """Dense (P, Q, D+P) of every basis function at radii r: three (len(r), size) arrays."""
+    def components(self, r: np.ndarray, channels=("P", "Q", "DP", "DQ")):
+        """Dense (P, Q, D+P, D-Q) of every basis function at radii r: (len(r), size) arrays."""
         r = np.asarray(r, dtype=float)
-        return tuple(np.concatenate([g.values(r) for g in self._stack(ch)], axis=1) for ch in ("P", "Q", "DP"))
+        return tuple(np.concatenate([g.values(r) for g in self._stack(ch)], axis=1) for ch in channels)
 
     def _blocks(self, integral) -> np.ndarray:
         """Assemble a (size x size) matrix from integral(f_family, g_family) block by block."""
@@ -135,7 +141,7 @@ class GaussianDiracBasis:
             eta = nucleus.gauss_exponent
             return self._blocks(lambda f, g: gauss_nucleus(f.P, g.P, Z, eta) + gauss_nucleus(f.Q, g.Q, Z, eta))
         r, w = grid if grid is not None else self.grid(nucleus)
-        P, Q, _ = self.components(r)
+        P, Q = self.components(r, ("P", "Q"))
         wV = (w * nucleus.potential(r))[:, None]
         return P.T @ (wV * P) + Q.T @ (wV * Q)
 

@@ -125,9 +125,10 @@ def refine(system: Eigensystem, H: np.ndarray, S: np.ndarray, which, order: np.n
         ok = True
         for _ in range(steps):
             y = solve_one(Ss @ x)
-            if not np.all(np.isfinite(y)):
+            if not np.all(np.isfinite(y)) or not np.any(y):
                 ok = False
                 break
+            y = y / np.max(np.abs(y))  # keep y @ S @ y clear of overflow
             x = y / np.sqrt(y @ Ss @ y)
         if not ok:
             continue
@@ -152,8 +153,9 @@ def _refine_reduced(system: Eigensystem, H, S, idx, steps) -> Eigensystem:
             continue
         for _ in range(steps):
             y = sl.lapack.dgetrs(lu, piv, Sr @ x)[0]
-            if not np.all(np.isfinite(y)):
+            if not np.all(np.isfinite(y)) or not np.any(y):
                 break
+            y = y / np.max(np.abs(y))
             x = y / np.sqrt(y @ Sr @ y)
         else:
             energies[j] = (x @ Hr @ x) / (x @ Sr @ x)

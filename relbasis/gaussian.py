@@ -85,6 +85,8 @@ class GaussPoly:
 
     def over_r(self) -> "GaussPoly":
         """f/r; the functions must vanish at the origin (no r^0 term)."""
+        if not np.any(self.coef):
+            return self
         if np.any(np.abs(self.coef[:, 0]) > 0):
             raise ValueError("f/r of a function that is non-zero at the origin")
         return GaussPoly(self.exps, self.coef[:, 1:] if self.coef.shape[1] > 1 else np.zeros((len(self.exps), 1)))

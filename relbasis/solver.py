@@ -23,7 +23,7 @@ from .eigen import DEFAULT_THRESHOLD, Eigensystem, refine, solve as eigensolve
 from .gaussian import even_tempered
 from .errors import InputError
 from .nucleus import Nucleus
-from .spectrum import Spectrum, classify, duplicate_roots
+from .spectrum import Spectrum, classify, duplicate_roots, examined
 
 
 @dataclass(frozen=True)
@@ -47,7 +47,7 @@ class Solution:
 
     def exact(self, kappa: int, n: int) -> float | None:
         """Exact Dirac–Coulomb binding energy for a point nucleus, else None."""
-        if self.nucleus.model != "point":
+        if self.nucleus.model != "point" or self.nucleus.Z == 0:
             return None
         return dirac_coulomb_energy(self.nucleus.Z, n, kappa)
 
@@ -65,7 +65,7 @@ class Solution:
                     "energy_hartree": float(eps),
                     "flags": list(spec.flags[i]),
                 }
-                if spec.n[i] is not None and self.nucleus.model == "point":
+                if spec.n[i] is not None and self.exact(kappa, spec.n[i]) is not None:
                     ex = self.exact(kappa, spec.n[i])
                     rec["exact_hartree"] = ex
                     rec["relative_error"] = abs(eps / ex - 1.0)
@@ -139,18 +139,18 @@ def build_splines(config: Config, nucleus: Nucleus) -> BSplineBasis:
 def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np.ndarray, balance: str,
                 point_charge: float, partner: Spectrum | None = None,
                 coarse: QuadratureTable | None = None,
-                threshold: float | None = None) -> tuple[DiracBasis, Spectrum, Eigensystem]:
+                threshold: float | None = None, wall: str = "dirichlet") -> tuple[DiracBasis, Spectrum, Eigensystem]:
     """Basis, matrices, roots, refinement and sorting for one symmetry.
 
     ``coarse`` (one point per knot interval) serves to fix the sign of the continuum roots
     cheaply; roots in the bound-state window are examined on the full table.
     """
-    basis = DiracBasis.build(splines, kappa, balance, C, point_charge)
+    basis = DiracBasis.build(splines, kappa, balance, C, point_charge, wall)
     local = basis.local_channels(table)
     H, S = basis.matrices(table, V, local)
     system = eigensolve(H, S, threshold)
     system = refine(system, H, S, (system.energies > -2 * C * C) & (system.energies < 0), basis.band_order())
-    window = (system.energies > -2 * C * C) & (system.energies < 0)
+    window = examined(system.energies, C)
     coarse = coarse or splines.quadrature(1)
     P_all = basis.local_channels(coarse).dense("P", basis.size) @ system.vectors
     P, Q, DP = local.evaluate(system.vectors[:, window], "PQD")
@@ -167,8 +167,8 @@ def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, ba
     H, S = basis.matrices(nucleus, grid)
     system = eigensolve(H, S, threshold if threshold is not None else DEFAULT_THRESHOLD)
     system = refine(system, H, S, (system.energies > -2 * C * C) & (system.energies < 0))
-    window = (system.energies > -2 * C * C) & (system.energies < 0)
-    Pm, Qm, Dm = basis.components(r)
+    window = examined(system.energies, C)
+    Pm, Qm, Dm = basis.components(r, ("P", "Q", "DP"))
     P_all = Pm @ system.vectors
     v = system.vectors[:, window]
     external = duplicate_roots(kappa, system.energies, partner)
@@ -192,7 +192,7 @@ def solve(config=None, **overrides) -> Solution:
     for kappa in _kappa_order(cfg):
         bases[kappa], spectra[kappa], systems[kappa] = solve_kappa(
             kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa), coarse,
-            cfg.basis.overlap_threshold)
+            cfg.basis.overlap_threshold, cfg.basis.wall)
     return _solution(cfg, nucleus, splines, bases, spectra, systems)
 
 

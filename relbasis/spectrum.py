@@ -89,6 +89,12 @@ def count_nodes(P: np.ndarray, w: np.ndarray, floor: float = NODE_FLOOR) -> np.n
     return out
 
 
+def examined(energies: np.ndarray, c: float) -> np.ndarray:
+    """Roots whose functions :func:`classify` needs on the fine grid: the bound-state window
+    -2c^2 < eps < 0.  (Continuum roots are sorted by energy alone; the audit examines them.)"""
+    return (energies > -2 * c * c) & (energies < 0)
+
+
 def _first_sign(P: np.ndarray) -> np.ndarray:
     """Sign of each column at its first point where |P| exceeds 1e-3 of its largest value."""
     big = np.abs(P) > 1e-3 * np.max(np.abs(P), axis=0, keepdims=True)
@@ -132,15 +138,15 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     """Branches, n, labels and flags for the roots of one symmetry.
 
     ``P_all`` holds P of every root on an ascending radial grid, coarse or fine (it fixes the
-    sign of the roots outside the window); ``P``, ``Q`` and ``DP`` hold P, Q and D+P of the
-    roots in the bound-state window -2c^2 < eps < 0 (points x roots in the window) on a grid
-    with quadrature weights ``w`` and potential ``V``; ``vectors`` are the
+    sign of the roots not examined); ``P``, ``Q`` and ``DP`` hold P, Q and D+P of the examined
+    roots (:func:`examined`: -2c^2 < eps < 2c^2; points x examined roots) on a grid with
+    quadrature weights ``w`` and potential ``V``; ``vectors`` are the
     coefficients (basis x roots), returned with the sign fixed so that P > 0 near the origin.
     ``external`` maps root indices to flags found outside this symmetry (duplicate levels).
     """
     external = external or {}
     l = orbital_l(kappa)
-    window = (energies > -2 * c * c) & (energies < 0)
+    window = examined(energies, c)
     sign = _first_sign(P_all)
     sign[window] = _first_sign(P)
     vectors = vectors * sign[None, :]
