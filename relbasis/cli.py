@@ -153,6 +153,51 @@ def levels_table(sol, show_all: bool = False) -> str:
     return "\n".join(lines)
 
 
+def audit_table(result) -> str:
+    """The readable table of `relbasis audit`."""
+    sol = result.solution
+    nuc = sol.nucleus
+    radius = f", rms radius {nuc.rms_radius_fm:.4f} fm" if nuc.rms_radius_fm is not None else ""
+    lines = [f"relbasis {__version__} audit: Z = {nuc.Z:g}, A = {nuc.A}, {nuc.model} nucleus{radius}; no QED",
+             basis_line(sol), ""]
+    lines.append(f"{'check':<26} {'status':<6} {'value':>10} {'threshold':>10}  detail")
+    for c in result.checks:
+        value = "-" if c.value is None else f"{c.value:.3g}"
+        thr = "-" if c.threshold is None else f"{c.threshold:.3g}"
+        lines.append(f"{c.name:<26} {c.status:<6} {value:>10} {thr:>10}  {c.detail}")
+    lines.append("")
+    lines.append(f"verdict: {result.verdict}")
+    for a in result.advice:
+        lines.append(f"advice: {a}")
+    lines.append("")
+    lines.append("Checked for the stated nuclear model without QED; validate before use in publications.")
+    return "\n".join(lines)
+
+
+def _cmd_audit(args) -> int:
+    from .audit import audit, convergence_series
+    from .report import write_report
+
+    if args.max_n < 1:
+        raise InputError(f"--max-n {args.max_n}: must be at least 1")
+    if not (args.target > 0):
+        raise InputError(f"--target {args.target}: must be a positive relative accuracy, e.g. 1e-8")
+    if args.report is not None:
+        from .report import check_target
+
+        check_target(args.report, args.force)
+    result = audit(_solution(args), max_n=args.max_n, target=args.target)
+    if args.report is not None:
+        write_report(result, args.report, args.force, convergence_series(result))
+    if args.json:
+        print(json.dumps(result.to_dict(), indent=1))
+    else:
+        print(audit_table(result))
+        if args.report is not None:
+            print(f"report written to {args.report}")
+    return 0
+
+
 def _cmd_levels(args) -> int:
     sol = _solution(args)
     if args.json:
@@ -176,6 +221,16 @@ def build_parser() -> argparse.ArgumentParser:
     lv.add_argument("--json", action="store_true", help="print the JSON document instead of the table")
     lv.add_argument("--all", action="store_true", help="list the continuum roots too")
     lv.set_defaults(func=_cmd_levels)
+    au = sub.add_parser("audit", help="diagnose a basis: checks, verdict, advice",
+                        description="Checks of a basis before a production run, with a verdict and advice.")
+    au.add_argument("config", nargs="?", help="TOML config file; default: the embedded demo ion")
+    _add_model_options(au)
+    au.add_argument("--max-n", type=int, default=5, metavar="N", help="bound states checked: n <= N (default 5)")
+    au.add_argument("--target", type=float, default=1e-8, help="relative accuracy wanted of the bound levels (default 1e-8)")
+    au.add_argument("--json", action="store_true", help="print the audit JSON document")
+    au.add_argument("--report", metavar="DIR", help="write audit.json, spectrum.png and convergence.png into DIR")
+    au.add_argument("--force", action="store_true", help="replace an existing report directory")
+    au.set_defaults(func=_cmd_audit)
     return p
 
 

@@ -30,9 +30,12 @@ order-10 splines an extra root at eps = -25045 hartree, below 1s at -341).  With
 zero-energy relation Q = c D+P / (2c^2 - V) of the Coulomb problem is kept at small r, the
 intruder is gone for every Z and kappa we tried, and g -> 1 where |V| << 2c^2.
 
-For DKB both components of every function must vanish at both ends, so that the symmetric form
-is the true matrix of H.  At the wall B_{N-1} and B_{N-2} (the only splines with B or B' non-zero
-at r_max) are removed.  At the origin B_0 is always removed; B_1 ~ r gives D+-B_1(0) =
+With the Dirichlet wall both components of every function vanish at both ends, so that the
+symmetric form is the true matrix of H: for DKB, B_{N-1} and B_{N-2} (the only splines with B or
+B' non-zero at r_max) are removed, for the plain basis B_{N-1}.  With the bag wall no spline is
+removed at r_max and a boundary term makes P(R) = -Q(R) the natural boundary condition
+(:meth:`DiracBasis.wall_matrix`; the B-spline work of W. R. Johnson, S. A. Blundell,
+J. Sapirstein, Phys. Rev. A 37, 307 (1988), uses a condition of this kind at the cavity wall).  At the origin B_0 is always removed; B_1 ~ r gives D+-B_1(0) =
 (1 +- kappa) B_1'(0), so with g(0) = 1 it is kept in ``upper`` only for kappa = -1 and in
 ``lower`` only for kappa = +1, while with g(0) = 0 (point nucleus) it is kept in both.  With
 these choices every integrand on the first knot interval is regular, even for V = -Z/r.

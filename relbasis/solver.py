@@ -37,6 +37,25 @@ class Solution:
     spectra: dict[int, Spectrum] = field(repr=False)
     dropped: dict[int, int] = field(default_factory=dict)  # functions removed by canonical orthogonalisation
     condition: dict[int, float] = field(default_factory=dict)  # of the scaled overlap, where computed
+    table: QuadratureTable | None = field(default=None, repr=False)  # B-splines: the Gauss–Legendre table
+    gauss_grid: tuple | None = field(default=None, repr=False)  # Gaussians: (r, w)
+
+    @property
+    def grid(self) -> tuple[np.ndarray, np.ndarray]:
+        """Radial quadrature points and weights (r, w) on which the functions are examined."""
+        if self.table is not None:
+            return self.table.r.ravel(), self.table.w.ravel()
+        return self.gauss_grid
+
+    def sample(self, kappa: int, roots=None, channels: str = "PQDM") -> tuple[np.ndarray, ...]:
+        """P, Q, D+P, D-Q (any of "PQDM") of the chosen roots of kappa on :attr:`grid`."""
+        spec, basis = self.spectra[kappa], self.bases[kappa]
+        vec = spec.vectors if roots is None else spec.vectors[:, roots]
+        if self.table is not None:
+            return basis.local_channels(self.table).evaluate(vec, channels)
+        names = {"P": "P", "Q": "Q", "D": "DP", "M": "DQ"}
+        mats = basis.components(self.grid[0], tuple(names[ch] for ch in channels))
+        return tuple(m @ vec for m in mats)
 
     @property
     def kappas(self) -> tuple[int, ...]:
@@ -193,7 +212,7 @@ def solve(config=None, **overrides) -> Solution:
         bases[kappa], spectra[kappa], systems[kappa] = solve_kappa(
             kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa), coarse,
             cfg.basis.overlap_threshold, cfg.basis.wall)
-    return _solution(cfg, nucleus, splines, bases, spectra, systems)
+    return _solution(cfg, nucleus, splines, bases, spectra, systems, table=table)
 
 
 def _kappa_order(cfg: Config):
@@ -201,9 +220,11 @@ def _kappa_order(cfg: Config):
     return sorted(cfg.solve.kappas, key=lambda k: (k > 0, abs(k)))
 
 
-def _solution(cfg, nucleus, splines, bases, spectra, systems: dict[int, Eigensystem]) -> Solution:
+def _solution(cfg, nucleus, splines, bases, spectra, systems: dict[int, Eigensystem], table=None,
+              gauss_grid=None) -> Solution:
     return Solution(cfg, nucleus, splines, bases, spectra,
-                    {k: s.dropped for k, s in systems.items()}, {k: s.condition for k, s in systems.items()})
+                    {k: s.dropped for k, s in systems.items()}, {k: s.condition for k, s in systems.items()},
+                    table, gauss_grid)
 
 
 def _solve_gaussian(cfg: Config, nucleus: Nucleus) -> Solution:
@@ -214,4 +235,4 @@ def _solve_gaussian(cfg: Config, nucleus: Nucleus) -> Solution:
     for kappa in _kappa_order(cfg):
         bases[kappa], spectra[kappa], systems[kappa] = solve_kappa_gaussian(
             kappa, exps, nucleus, b.balance, grid, b.overlap_threshold, spectra.get(-kappa))
-    return _solution(cfg, nucleus, None, bases, spectra, systems)
+    return _solution(cfg, nucleus, None, bases, spectra, systems, gauss_grid=grid)
