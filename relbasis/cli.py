@@ -198,6 +198,18 @@ def _cmd_audit(args) -> int:
     return 0
 
 
+def _cmd_scan(args) -> int:
+    from .scan import scan, summary_table
+
+    if args.jobs == 0 or args.jobs < -1:
+        raise InputError(f"--jobs {args.jobs}: give a positive number of processes (or -1 for all cores)")
+    result = scan(args.plan, args.out, jobs=args.jobs, scheduler=args.scheduler, progress=not args.quiet)
+    print(summary_table(result.summary))
+    print(f"computed {result.computed} of {result.total} units ({result.total - result.computed} reused); "
+          f"results in {result.out}")
+    return 0
+
+
 def _cmd_levels(args) -> int:
     sol = _solution(args)
     if args.json:
@@ -231,6 +243,14 @@ def build_parser() -> argparse.ArgumentParser:
     au.add_argument("--report", metavar="DIR", help="write audit.json, spectrum.png and convergence.png into DIR")
     au.add_argument("--force", action="store_true", help="replace an existing report directory")
     au.set_defaults(func=_cmd_audit)
+    sc = sub.add_parser("scan", help="convergence scan over basis and ion settings (resumable, parallel)",
+                        description="Run or resume a convergence scan plan; results and analysis go to --out.")
+    sc.add_argument("plan", help="scan plan (TOML: [base.ion], [base.basis], [axes], [track])")
+    sc.add_argument("--out", default="scan-out", help="output folder (results.jsonl, summary.json, ...; default scan-out)")
+    sc.add_argument("--jobs", type=int, default=1, help="worker processes (joblib loky; default 1)")
+    sc.add_argument("--scheduler", metavar="ADDRESS", help="dask.distributed scheduler, e.g. tcp://127.0.0.1:8786")
+    sc.add_argument("--quiet", action="store_true", help="no progress bar")
+    sc.set_defaults(func=_cmd_scan)
     return p
 
 

@@ -82,3 +82,28 @@ def convergence_figure(series: dict, path, title: str, target: float | None = No
     fig.tight_layout()
     fig.savefig(path)
     plt.close(fig)
+
+
+def scan_figure(label: str, state: dict, target: float, path) -> None:
+    """Relative error of one tracked level against size, one line per series of the scan."""
+    plt = _pyplot()
+    fig, ax = plt.subplots(figsize=(9, 5), dpi=110)
+    series: dict[str, list] = {}
+    for row in state["rows"]:
+        if row["relative_error"] is None or row["is_reference"]:
+            continue
+        basis = {k: v for k, v in row["basis"].items() if k != "size"}
+        name = ", ".join(f"{k}={v}" for k, v in sorted({**row["ion"], **basis}.items()))
+        series.setdefault(name, []).append((row["size"], max(row["relative_error"], 1e-17)))
+    for name, pts in sorted(series.items()):
+        pts.sort()
+        ax.semilogy([p[0] for p in pts], [p[1] for p in pts], marker="o", ms=3, lw=1, label=name)
+    ax.axhline(target, color="k", ls="--", lw=0.8, label=f"target {target:g}")
+    ax.set_xlabel("size (functions per component)")
+    ax.set_ylabel("relative error")
+    ax.set_title(f"{label}: error against size", fontsize=10)
+    ax.grid(True, which="both", lw=0.3, alpha=0.5)
+    ax.legend(fontsize=6, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    fig.tight_layout()
+    fig.savefig(path)
+    plt.close(fig)
