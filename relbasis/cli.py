@@ -11,6 +11,8 @@ import argparse
 import json
 import sys
 
+import numpy as np
+
 from . import __version__, constants
 from .errors import InputError
 
@@ -210,6 +212,29 @@ def _cmd_scan(args) -> int:
     return 0
 
 
+def _cmd_export(args) -> int:
+    from .export import export
+
+    blocks = tuple(b for b in (args.with_ or "").replace(" ", "").split(",") if b)
+    grid = None
+    if args.grid is not None:
+        try:
+            lo, hi, count = args.grid.split(":")
+            lo, hi, count = float(lo), float(hi), int(count)
+        except ValueError:
+            raise InputError(f"--grid {args.grid!r}: give R_MIN:R_MAX:COUNT, e.g. 1e-6:40:2000 (log-spaced, bohr)") from None
+        if not (0 < lo < hi) or count < 2:
+            raise InputError(f"--grid {args.grid!r}: need 0 < R_MIN < R_MAX and COUNT >= 2")
+        grid = np.geomspace(lo, hi, count)
+    sol = _solution(args)
+    if grid is not None and sol.splines is not None and grid[-1] > sol.splines.r_max:
+        raise InputError(f"--grid: R_MAX = {grid[-1]:g} lies beyond the cavity radius r_max = {sol.splines.r_max:g} bohr")
+    path = export(sol, args.out, force=args.force, grid=grid, blocks=blocks)
+    total = sum(len(sol[k]) for k in sol.kappas)
+    print(f"wrote {path}: {total} roots in {len(sol.kappas)} symmetries" + (f", blocks {', '.join(blocks)}" if blocks else ""))
+    return 0
+
+
 def _cmd_levels(args) -> int:
     sol = _solution(args)
     if args.json:
@@ -251,6 +276,16 @@ def build_parser() -> argparse.ArgumentParser:
     sc.add_argument("--scheduler", metavar="ADDRESS", help="dask.distributed scheduler, e.g. tcp://127.0.0.1:8786")
     sc.add_argument("--quiet", action="store_true", help="no progress bar")
     sc.set_defaults(func=_cmd_scan)
+    ex = sub.add_parser("export", help="write the basis (every root, both branches) to HDF5 or .npz + JSON",
+                        description="Export a basis for a many-body code; layout in docs/file-format.md.")
+    ex.add_argument("config", nargs="?", help="TOML config file; default: the embedded demo ion")
+    _add_model_options(ex)
+    ex.add_argument("--out", required=True, help="FILE.h5 (HDF5) or FILE.npz (numpy + FILE.json)")
+    ex.add_argument("--with", dest="with_", metavar="BLOCKS", help="integral blocks: dipole,hyperfine")
+    ex.add_argument("--grid", metavar="R_MIN:R_MAX:COUNT", help="log-spaced radial grid for P and Q "
+                    "(default: the quadrature points)")
+    ex.add_argument("--force", action="store_true", help="replace an existing file")
+    ex.set_defaults(func=_cmd_export)
     return p
 
 

@@ -1,0 +1,105 @@
+"""Export and reading back, and the radial integrals behind the optional blocks."""
+
+import numpy as np
+import pytest
+
+import relbasis
+from conftest import solve_cached
+from relbasis import integrals
+from relbasis.analytic import gamma_1s
+from relbasis.cli import main
+from relbasis.constants import C
+from relbasis.errors import InputError
+
+
+@pytest.mark.parametrize("name", ["basis.h5", "basis.npz"])
+def test_round_trip(tmp_path, name):
+    """Bit-identical energies and coefficients; P, Q at any radii equal direct evaluation to 1e-14."""
+    sol = solve_cached(ion={"Z": 54, "nucleus": "fermi"}, basis={"size": 50}, solve={"kappas": [-1, 1, -2]})
+    path = relbasis.export(sol, tmp_path / name, blocks=("dipole", "hyperfine") if name.endswith("h5") else ())
+    back = relbasis.load(path)
+    assert back.kappas == (-1, 1, -2)
+    r = np.geomspace(1e-7, sol.splines.r_max, 300)
+    for kappa in sol.kappas:
+        assert np.array_equal(back[kappa].energies, sol[kappa].energies)
+        assert np.array_equal(back[kappa].coefficients, sol[kappa].vectors)
+        assert back[kappa].branches == sol[kappa].branches and back[kappa].labels == sol[kappa].labels
+        P, Q = back[kappa].radial(r)
+        Pd, Qd = (m @ sol[kappa].vectors for m in sol.bases[kappa].components(r)[:2])
+        assert P.shape == (r.size, len(sol[kappa]))
+        scale = max(np.abs(Pd).max(), np.abs(Qd).max())
+        assert np.abs(P - Pd).max() <= 1e-14 * scale and np.abs(Q - Qd).max() <= 1e-14 * scale
+    assert back.ion["Z"] == 54 and back.config["basis"]["size"] == 50
+
+
+def test_gaussian_family_round_trip(tmp_path):
+    sol = solve_cached(ion={"Z": 20, "nucleus": "gauss"}, basis={"family": "gaussian", "size": 20},
+                       solve={"kappas": [-1]})
+    back = relbasis.load(relbasis.export(sol, tmp_path / "g.h5"))
+    r = np.linspace(0.001, 2.0, 40)
+    P, _ = back[-1].radial(r)
+    np.testing.assert_array_equal(P, sol.bases[-1].components(r)[0] @ sol[-1].vectors)
+
+
+def test_existing_file_needs_force_and_bad_files_are_one_line_errors(tmp_path, capsys):
+    out = tmp_path / "b.h5"
+    assert main(["export", "--z", "10", "--kappas", "-1", "--size", "30", "--out", str(out)]) == 0
+    assert main(["export", "--z", "10", "--kappas", "-1", "--size", "30", "--out", str(out)]) == 2
+    assert "--force" in capsys.readouterr().err
+    assert main(["export", "--z", "10", "--kappas", "-1", "--size", "30", "--out", str(out), "--force"]) == 0
+    import h5py
+
+    with h5py.File(out, "r+") as f:
+        f.attrs["layout_version"] = 99
+    with pytest.raises(InputError, match="layout version 99"):
+        relbasis.load(out)
+    cut = tmp_path / "cut.h5"
+    cut.write_bytes(out.read_bytes()[:5000])
+    with pytest.raises(InputError) as err:
+        relbasis.load(cut)
+    assert "\n" not in str(err.value)
+    assert main(["export", "--z", "10", "--out", str(tmp_path / "x.txt")]) == 2
+    assert main(["export", "--z", "10", "--out", str(tmp_path / "y.h5"), "--with", "slater,dipole"]) == 2
+
+
+def test_hydrogen_1s_2p_oscillator_strength():
+    """f(1s -> 2p) of hydrogen = 0.4162 (Bethe & Salpeter 1957, from memory; 1e-3 relative)."""
+    sol = solve_cached(ion={"Z": 1, "nucleus": "point"}, solve={"kappas": [-1, 1, -2]})
+    a = sol[-1].indices("bound")[:1]
+    f = sum(integrals.dipole(sol, -1, kb, a, [sol[kb].n.index(2)])["oscillator_strength"][0, 0] for kb in (1, -2))
+    assert f == pytest.approx(0.4162, rel=1e-3)
+
+
+def test_dipole_closure_over_the_whole_spectrum():
+    """sum over all roots (both branches) of the partner symmetries of |<n||rC1||1s>|^2/(2j+1)
+    equals <1s|r^2|1s> (completeness, common practice); here to 1e-7 at Z = 50."""
+    sol = solve_cached(ion={"Z": 50, "nucleus": "point"}, solve={"kappas": [-1, 1, -2]})
+    a = sol[-1].indices("bound")[:1]
+    r2 = integrals.moment(sol, -1, -1, 2, a, a)[0, 0]
+    total = sum(np.sum(integrals.dipole(sol, -1, kb, a)["reduced"][0] ** 2) / 2 for kb in (1, -2))
+    assert abs(total / r2 - 1) < 1e-7
+
+
+@pytest.mark.parametrize("Z,tol", [(1, 1e-7), (50, 1e-6)])
+def test_hyperfine_integral_of_1s_against_breit(Z, tol):
+    """int P Q / r^2 of 1s = -alpha Z^3 / (gamma (2 gamma - 1)) (Breit, Phys. Rev. 35, 1447 (1930),
+    from memory); measured 7.9e-8 (Z = 1) and 4.4e-7 (Z = 50) with the default basis."""
+    sol = solve_cached(ion={"Z": Z, "nucleus": "point"}, solve={"kappas": [-1]})
+    a = sol[-1].indices("bound")[:1]
+    g = gamma_1s(Z)
+    value = integrals.hyperfine(sol, -1, -1, a, a)[0, 0]
+    assert abs(value / (-(Z**3) / C / (g * (2 * g - 1))) - 1) < tol
+
+
+def test_slater_integrals_symmetry_and_hydrogenic_limit():
+    """R^k(ab,cd) = R^k(ba,dc) = R^k(cb,ad) (exchange symmetries, common practice); F^0(1s,1s) of
+    hydrogen = 5/8 up to relativistic corrections of order (Z alpha)^2 (textbook value)."""
+    sol = solve_cached(ion={"Z": 20, "nucleus": "point"}, solve={"kappas": [-1, -2]})
+    s, p = (-1, int(sol[-1].indices("bound")[0])), (-2, int(sol[-2].indices("bound")[0]))
+    x = integrals.slater(sol, 1, s, p, p, s)
+    assert x == pytest.approx(integrals.slater(sol, 1, p, s, s, p), rel=1e-13)
+    y = integrals.slater(sol, 1, s, p, s, p)
+    assert y == pytest.approx(integrals.slater(sol, 1, p, s, p, s), rel=1e-13)
+    h = solve_cached(ion={"Z": 1, "nucleus": "point"}, solve={"kappas": [-1, 1, -2]})
+    a = (-1, int(h[-1].indices("bound")[0]))
+    assert integrals.slater(h, 0, a, a, a, a) == pytest.approx(5 / 8, rel=1e-4)
