@@ -61,3 +61,57 @@ def dipole_partners(kappa: int) -> tuple[int, ...]:
         if kb != 0 and reduced_c(1, kb, kappa) != 0.0:
             out.append(kb)
     return tuple(out)
+
+
+def clebsch_gordan_doubled(j1: int, m1: int, j2: int, m2: int, J: int, M: int) -> float:
+    """<j1 m1 j2 m2 | J M>, arguments doubled: (-1)^(j1 - j2 + M) sqrt(2J+1) (j1 j2 J; m1 m2 -M)."""
+    sign = -1.0 if ((j1 - j2 + M) // 2) % 2 else 1.0
+    return sign * sqrt(J + 1) * wigner_3j_doubled(j1, j2, J, m1, m2, -M)
+
+
+def _spinor(kappa: int, m2: int):
+    """Omega_{kappa m} = sum_mu <l, m - mu; 1/2, mu | j m> Y_{l, m - mu} chi_mu: [(mu2, ml, coefficient)]."""
+    l, j2 = orbital_l(kappa), j_twice(kappa)
+    out = []
+    for mu2 in (1, -1):
+        ml2 = m2 - mu2
+        if abs(ml2) <= 2 * l:
+            out.append((mu2, ml2 // 2, clebsch_gordan_doubled(2 * l, ml2, 1, mu2, j2, m2)))
+    return out
+
+
+def _gaunt(lb: int, mb: int, k: int, q: int, la: int, ma: int) -> float:
+    """<Y_{lb mb} | C^k_q | Y_{la ma}> = (-1)^mb sqrt((2lb+1)(2la+1)) (lb k la; 0 0 0)(lb k la; -mb q ma)."""
+    sign = -1.0 if mb % 2 else 1.0
+    return sign * sqrt((2 * lb + 1) * (2 * la + 1)) * wigner_3j_doubled(2 * lb, 2 * k, 2 * la, 0, 0, 0) \
+        * wigner_3j_doubled(2 * lb, 2 * k, 2 * la, -2 * mb, 2 * q, 2 * ma)
+
+
+def c1_element(kappa_b: int, kappa_a: int, m2: int = 1) -> float:
+    """<Omega_{kappa_b m}| C^1_0 |Omega_{kappa_a m}> for m = m2/2, built from the spinors."""
+    lb, la = orbital_l(kappa_b), orbital_l(kappa_a)
+    total = 0.0
+    for mu_b, ml_b, cb in _spinor(kappa_b, m2):
+        for mu_a, ml_a, ca in _spinor(kappa_a, m2):
+            if mu_a == mu_b:
+                total += cb * ca * _gaunt(lb, ml_b, 1, 0, la, ml_a)
+    return total
+
+
+def sigma_element(kappa_b: int, kappa_a: int, m2: int = 1) -> float:
+    """<Omega_{kappa_b m}| sigma_z |Omega_{kappa_a m}> for m = m2/2 (non-zero only for l_b = l_a)."""
+    if orbital_l(kappa_b) != orbital_l(kappa_a):
+        return 0.0
+    total = 0.0
+    for mu_b, ml_b, cb in _spinor(kappa_b, m2):
+        for mu_a, ml_a, ca in _spinor(kappa_a, m2):
+            if mu_a == mu_b and ml_a == ml_b:
+                total += cb * ca * mu_a  # sigma_z chi_mu = 2 mu chi_mu, and mu_a is 2 mu
+    return total
+
+
+def wigner_eckart_z(kappa_b: int, kappa_a: int, m2: int = 1) -> float:
+    """The factor <j_b m|T^1_0|j_a m> / <j_b||T^1||j_a> = (-1)^(j_b - m) (j_b 1 j_a; -m 0 m)."""
+    jb, ja = j_twice(kappa_b), j_twice(kappa_a)
+    sign = -1.0 if ((jb - m2) // 2) % 2 else 1.0
+    return sign * wigner_3j_doubled(jb, 2, ja, -m2, 0, m2)

@@ -229,7 +229,10 @@ def _cmd_export(args) -> int:
     sol = _solution(args)
     if grid is not None and sol.splines is not None and grid[-1] > sol.splines.r_max:
         raise InputError(f"--grid: R_MAX = {grid[-1]:g} lies beyond the cavity radius r_max = {sol.splines.r_max:g} bohr")
-    path = export(sol, args.out, force=args.force, grid=grid, blocks=blocks)
+    from .export import parse_slater
+
+    slater = [parse_slater(s) for s in (args.slater or [])]
+    path = export(sol, args.out, force=args.force, grid=grid, blocks=blocks, slater=slater)
     total = sum(len(sol[k]) for k in sol.kappas)
     print(f"wrote {path}: {total} roots in {len(sol.kappas)} symmetries" + (f", blocks {', '.join(blocks)}" if blocks else ""))
     return 0
@@ -284,6 +287,8 @@ def build_parser() -> argparse.ArgumentParser:
     ex.add_argument("--with", dest="with_", metavar="BLOCKS", help="integral blocks: dipole,hyperfine")
     ex.add_argument("--grid", metavar="R_MIN:R_MAX:COUNT", help="log-spaced radial grid for P and Q "
                     "(default: the quadrature points)")
+    ex.add_argument("--slater", action="append", metavar="K:A,B,C,D",
+                    help="store R^K(AB, CD) for these bound states, e.g. 0:1s1/2,1s1/2,1s1/2,1s1/2 (repeatable)")
     ex.add_argument("--force", action="store_true", help="replace an existing file")
     ex.set_defaults(func=_cmd_export)
     return p

@@ -54,7 +54,7 @@ def _atomic(path: Path, write) -> None:
         raise
 
 
-def _payload(sol, grid: np.ndarray | None, blocks) -> dict:
+def _payload(sol, grid: np.ndarray | None, blocks, slater=()) -> dict:
     """Everything the file holds, as plain numbers, strings and arrays."""
     from . import integrals
 
@@ -100,21 +100,55 @@ def _payload(sol, grid: np.ndarray | None, blocks) -> dict:
                 if ka < kb and integrals.reduced_c(1, kb, ka) != 0:
                     d = integrals.dipole(sol, ka, kb)
                     arrays[f"integrals/dipole/{ka}_{kb}/radial_length"] = d["radial"]
+                    arrays[f"integrals/dipole/{ka}_{kb}/radial_velocity"] = integrals.dipole_velocity(sol, ka, kb)
                     top[f"integrals/dipole/{ka}_{kb}/angular"] = d["angular"]
     if "hyperfine" in blocks:  # int P_a Q_b / r^2 dr within each symmetry
         for kappa in sol.kappas:
             arrays[f"integrals/hyperfine/{kappa}_{kappa}"] = integrals.hyperfine(sol, kappa, kappa)
+    if slater:
+        rows, values = [], []
+        for k, labels in slater:
+            orbitals = [_orbital(sol, lab) for lab in labels]
+            values.append(integrals.slater(sol, k, *orbitals))
+            rows.append(f"{k}:{','.join(labels)}")
+        arrays["integrals/slater/which"] = np.array(rows, dtype=object)
+        arrays["integrals/slater/value"] = np.array(values)
     return {"attrs": top, "arrays": arrays}
 
 
-def export(sol, path, *, force: bool = False, grid=None, blocks=()) -> Path:
-    """Write the solution to ``path`` (.h5/.hdf5: HDF5; .npz: numpy archive + .json sidecar)."""
+def _orbital(sol, label: str) -> tuple[int, int]:
+    """(kappa, root index) of the bound state with this label."""
+    for kappa in sol.kappas:
+        if label in sol[kappa].labels:
+            return kappa, sol[kappa].labels.index(label)
+    raise InputError(f"--slater: no bound state {label!r} among the solved symmetries {list(sol.kappas)}")
+
+
+def parse_slater(text: str) -> tuple[int, tuple[str, str, str, str]]:
+    """'0:1s1/2,1s1/2,1s1/2,1s1/2' -> (0, labels a, b, c, d) of R^k(ab, cd)."""
+    try:
+        k, rest = text.split(":")
+        labels = tuple(x.strip() for x in rest.split(","))
+        k = int(k)
+    except ValueError:
+        raise InputError(f"--slater {text!r}: give K:A,B,C,D with state labels, e.g. 0:1s1/2,1s1/2,1s1/2,1s1/2") from None
+    if k < 0 or len(labels) != 4:
+        raise InputError(f"--slater {text!r}: K must be >= 0 and four orbitals are needed (R^K(AB, CD))")
+    return k, labels
+
+
+def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=()) -> Path:
+    """Write the solution to ``path`` (.h5/.hdf5: HDF5; .npz: numpy archive + .json sidecar).
+
+    ``blocks``: integral blocks ("dipole", "hyperfine"); ``slater``: (k, (a, b, c, d)) with
+    state labels, each stored as R^k(ab, cd).
+    """
     blocks = tuple(blocks)
     bad = [b for b in blocks if b not in BLOCKS]
     if bad:
         raise InputError(f"--with {bad[0]!r}: valid integral blocks are {', '.join(BLOCKS)}")
     target = _target(path, force)
-    data = _payload(sol, grid, blocks)
+    data = _payload(sol, grid, blocks, tuple(slater))
     if target.suffix in (".h5", ".hdf5"):
         _atomic(target, lambda tmp: _write_h5(tmp, data))
     elif target.suffix == ".npz":

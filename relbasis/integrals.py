@@ -53,6 +53,30 @@ def dipole(sol: Solution, ka: int, kb: int, rows=None, cols=None) -> dict:
     return {"radial": R, "reduced": reduced, "oscillator_strength": f, "angular": ang}
 
 
+def dipole_velocity(sol: Solution, ka: int, kb: int, rows=None, cols=None) -> np.ndarray:
+    """Velocity-form E1 radial integral R^V_ab, normalised like the length form R^L_ab = M_ab(k=1).
+
+    From [H, r] = -i c alpha for eigenstates of one Dirac Hamiltonian,
+    <b|z|a> = -i c <b|alpha_z|a> / (E_b - E_a); with psi = (P Omega_kappa, i Q Omega_-kappa)/r,
+    <b|alpha_z|a> = i [A1 int P_b Q_a dr - A2 int Q_b P_a dr], A1 = <Omega_kb|sigma_z|Omega_-ka>,
+    A2 = <Omega_-kb|sigma_z|Omega_ka>.  Dividing by the angular factor of the length form,
+    A_L = <Omega_kb|C^1_0|Omega_ka>, gives R^V = c (A1 I_PQ - A2 I_QP) / (A_L (E_b - E_a)), which
+    equals R^L for a complete basis: their agreement is a completeness test.
+    """
+    from .angular import c1_element, sigma_element
+
+    r, w = sol.grid
+    Pa, Qa = _sample(sol, ka, rows)
+    Pb, Qb = _sample(sol, kb, cols)
+    a1, a2, al = sigma_element(kb, -ka), sigma_element(-kb, ka), c1_element(kb, ka)
+    i_pq = (w[:, None] * Qa).T @ Pb  # int P_b Q_a, (rows a, cols b)
+    i_qp = (w[:, None] * Pa).T @ Qb  # int Q_b P_a
+    Ea = sol[ka].energies if rows is None else sol[ka].energies[rows]
+    Eb = sol[kb].energies if cols is None else sol[kb].energies[cols]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return sol.c * (a1 * i_pq - a2 * i_qp) / (al * (Eb[None, :] - Ea[:, None]))
+
+
 def hyperfine(sol: Solution, ka: int, kb: int, rows=None, cols=None) -> np.ndarray:
     """int P_a Q_b / r^2 dr for roots a of ka and b of kb."""
     r, w = sol.grid

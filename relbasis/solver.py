@@ -39,6 +39,7 @@ class Solution:
     condition: dict[int, float] = field(default_factory=dict)  # of the scaled overlap, where computed
     table: QuadratureTable | None = field(default=None, repr=False)  # B-splines: the Gauss–Legendre table
     gauss_grid: tuple | None = field(default=None, repr=False)  # Gaussians: (r, w)
+    c: float = C  # speed of light used (1/alpha unless a nonrelativistic-limit check asked otherwise)
 
     @property
     def grid(self) -> tuple[np.ndarray, np.ndarray]:
@@ -68,7 +69,7 @@ class Solution:
         """Exact Dirac–Coulomb binding energy for a point nucleus, else None."""
         if self.nucleus.model != "point" or self.nucleus.Z == 0:
             return None
-        return dirac_coulomb_energy(self.nucleus.Z, n, kappa)
+        return dirac_coulomb_energy(self.nucleus.Z, n, kappa, self.c)
 
     def states(self) -> list[dict]:
         """Every root once, in symmetry order then ascending energy (the JSON ``states`` list)."""
@@ -158,49 +159,57 @@ def build_splines(config: Config, nucleus: Nucleus) -> BSplineBasis:
 def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np.ndarray, balance: str,
                 point_charge: float, partner: Spectrum | None = None,
                 coarse: QuadratureTable | None = None,
-                threshold: float | None = None, wall: str = "dirichlet") -> tuple[DiracBasis, Spectrum, Eigensystem]:
+                threshold: float | None = None, wall: str = "dirichlet",
+                c: float = C) -> tuple[DiracBasis, Spectrum, Eigensystem]:
     """Basis, matrices, roots, refinement and sorting for one symmetry.
 
     ``coarse`` (one point per knot interval) serves to fix the sign of the continuum roots
     cheaply; roots in the bound-state window are examined on the full table.
     """
-    basis = DiracBasis.build(splines, kappa, balance, C, point_charge, wall)
+    basis = DiracBasis.build(splines, kappa, balance, c, point_charge, wall)
     local = basis.local_channels(table)
     H, S = basis.matrices(table, V, local)
     system = eigensolve(H, S, threshold)
-    system = refine(system, H, S, (system.energies > -2 * C * C) & (system.energies < 0), basis.band_order())
-    window = examined(system.energies, C)
+    system = refine(system, H, S, (system.energies > -2 * c * c) & (system.energies < 0), basis.band_order())
+    window = examined(system.energies, c)
     coarse = coarse or splines.quadrature(1)
     P_all = basis.local_channels(coarse).dense("P", basis.size) @ system.vectors
     P, Q, DP = local.evaluate(system.vectors[:, window], "PQD")
     external = duplicate_roots(kappa, system.energies, partner)
-    spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, table.w.ravel(), V.ravel(), C, external)
+    spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, table.w.ravel(), V.ravel(), c, external)
     return basis, spec, system
 
 
 def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, balance: str, grid,
-                         threshold: float | None, partner: Spectrum | None = None):
+                         threshold: float | None, partner: Spectrum | None = None, c: float = C):
     """The Gaussian counterpart of :func:`solve_kappa` (dense functions, one radial grid)."""
-    basis = GaussianDiracBasis.build(exponents, kappa, balance, C)
+    basis = GaussianDiracBasis.build(exponents, kappa, balance, c)
     r, w = grid
     H, S = basis.matrices(nucleus, grid)
     system = eigensolve(H, S, threshold if threshold is not None else DEFAULT_THRESHOLD)
-    system = refine(system, H, S, (system.energies > -2 * C * C) & (system.energies < 0))
-    window = examined(system.energies, C)
+    system = refine(system, H, S, (system.energies > -2 * c * c) & (system.energies < 0))
+    window = examined(system.energies, c)
     Pm, Qm, Dm = basis.components(r, ("P", "Q", "DP"))
     P_all = Pm @ system.vectors
     v = system.vectors[:, window]
     external = duplicate_roots(kappa, system.energies, partner)
     spec = classify(kappa, system.energies, system.vectors, P_all, P_all[:, window], Qm @ v, Dm @ v, w,
-                    nucleus.potential(r), C, external)
+                    nucleus.potential(r), c, external)
     return basis, spec, system
 
 
-def solve(config=None, **overrides) -> Solution:
-    """Spectra of the requested symmetries (see :func:`as_config` for the ways to pass a config)."""
+def solve(config=None, *, c: float | None = None, **overrides) -> Solution:
+    """Spectra of the requested symmetries (see :func:`as_config` for the ways to pass a config).
+
+    ``c`` replaces the speed of light (atomic units) for checks of the nonrelativistic limit
+    (c -> infinity); every physical result uses the default c = 1/alpha.
+    """
+    if c is not None and not (isinstance(c, (int, float)) and np.isfinite(c) and c > 1.0):
+        raise InputError(f"c = {c!r}: the speed of light must be a number > 1 (default 1/alpha)")
+    c = C if c is None else float(c)
     cfg, nucleus = resolve(as_config(config, **overrides))
     if cfg.basis.family == "gaussian":
-        return _solve_gaussian(cfg, nucleus)
+        return _solve_gaussian(cfg, nucleus, c)
     splines = build_splines(cfg, nucleus)
     table = splines.quadrature(cfg.basis.quadrature)
     V = nucleus.potential(table.r)
@@ -211,8 +220,8 @@ def solve(config=None, **overrides) -> Solution:
     for kappa in _kappa_order(cfg):
         bases[kappa], spectra[kappa], systems[kappa] = solve_kappa(
             kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa), coarse,
-            cfg.basis.overlap_threshold, cfg.basis.wall)
-    return _solution(cfg, nucleus, splines, bases, spectra, systems, table=table)
+            cfg.basis.overlap_threshold, cfg.basis.wall, c)
+    return _solution(cfg, nucleus, splines, bases, spectra, systems, table=table, c=c)
 
 
 def _kappa_order(cfg: Config):
@@ -221,18 +230,18 @@ def _kappa_order(cfg: Config):
 
 
 def _solution(cfg, nucleus, splines, bases, spectra, systems: dict[int, Eigensystem], table=None,
-              gauss_grid=None) -> Solution:
+              gauss_grid=None, c: float = C) -> Solution:
     return Solution(cfg, nucleus, splines, bases, spectra,
                     {k: s.dropped for k, s in systems.items()}, {k: s.condition for k, s in systems.items()},
-                    table, gauss_grid)
+                    table, gauss_grid, c)
 
 
-def _solve_gaussian(cfg: Config, nucleus: Nucleus) -> Solution:
+def _solve_gaussian(cfg: Config, nucleus: Nucleus, c: float = C) -> Solution:
     b = cfg.basis
     exps = np.asarray(b.exponents) if b.exponents is not None else even_tempered(b.size, b.exponent_min, b.exponent_max)
-    grid = GaussianDiracBasis.build(exps, -1, b.balance, C).grid(nucleus)
+    grid = GaussianDiracBasis.build(exps, -1, b.balance, c).grid(nucleus)
     bases, spectra, systems = {}, {}, {}
     for kappa in _kappa_order(cfg):
         bases[kappa], spectra[kappa], systems[kappa] = solve_kappa_gaussian(
-            kappa, exps, nucleus, b.balance, grid, b.overlap_threshold, spectra.get(-kappa))
-    return _solution(cfg, nucleus, None, bases, spectra, systems, gauss_grid=grid)
+            kappa, exps, nucleus, b.balance, grid, b.overlap_threshold, spectra.get(-kappa), c)
+    return _solution(cfg, nucleus, None, bases, spectra, systems, gauss_grid=grid, c=c)
