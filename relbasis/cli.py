@@ -284,7 +284,7 @@ def build_parser() -> argparse.ArgumentParser:
     ex.add_argument("config", nargs="?", help="TOML config file; default: the embedded demo ion")
     _add_model_options(ex)
     ex.add_argument("--out", required=True, help="FILE.h5 (HDF5) or FILE.npz (numpy + FILE.json)")
-    ex.add_argument("--with", dest="with_", metavar="BLOCKS", help="integral blocks: dipole,hyperfine")
+    ex.add_argument("--with", dest="with_", metavar="BLOCKS", help="integral blocks: dipole,hyperfine,slater")
     ex.add_argument("--grid", metavar="R_MIN:R_MAX:COUNT", help="log-spaced radial grid for P and Q "
                     "(default: the quadrature points)")
     ex.add_argument("--slater", action="append", metavar="K:A,B,C,D",

@@ -25,7 +25,7 @@ from .errors import InputError
 
 FORMAT = "relbasis-basis"
 LAYOUT_VERSION = 1
-BLOCKS = ("dipole", "hyperfine")
+BLOCKS = ("dipole", "hyperfine", "slater")
 
 
 # ----------------------------------------------------------------------------- writing
@@ -147,6 +147,8 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=()) -
     bad = [b for b in blocks if b not in BLOCKS]
     if bad:
         raise InputError(f"--with {bad[0]!r}: valid integral blocks are {', '.join(BLOCKS)}")
+    if "slater" in blocks and not slater:
+        raise InputError("--with slater: say which integrals with --slater K:A,B,C,D (e.g. 0:1s1/2,1s1/2,1s1/2,1s1/2)")
     target = _target(path, force)
     data = _payload(sol, grid, blocks, tuple(slater))
     if target.suffix in (".h5", ".hdf5"):

@@ -77,12 +77,69 @@ def dipole_velocity(sol: Solution, ka: int, kb: int, rows=None, cols=None) -> np
         return sol.c * (a1 * i_pq - a2 * i_qp) / (al * (Eb[None, :] - Ea[:, None]))
 
 
-def hyperfine(sol: Solution, ka: int, kb: int, rows=None, cols=None) -> np.ndarray:
-    """int P_a Q_b / r^2 dr for roots a of ka and b of kb."""
+def hyperfine(sol: Solution, ka: int, kb: int, rows=None, cols=None, origin: bool = True) -> np.ndarray:
+    """int P_a Q_b / r^2 dr for roots a of ka and b of kb.
+
+    For a point nucleus the bound states go as r^gamma near the origin, which polynomials
+    follow slowly, and the integrand as r^(gamma_a + gamma_b - 2).  With ``origin`` (default),
+    the part inside r_c (a knot with Z r_c ~ 1e-4) of every pair of bound states is taken from
+    their Frobenius series, matched to the basis functions just outside r_c
+    (:func:`origin_series`); other roots and finite nuclei are integrated on the grid alone.
+    """
     r, w = sol.grid
+    rows = np.arange(len(sol[ka])) if rows is None else np.asarray(rows)
+    cols = np.arange(len(sol[kb])) if cols is None else np.asarray(cols)
     Pa, _ = _sample(sol, ka, rows)
     _, Qb = _sample(sol, kb, cols)
-    return (w / r**2 * Pa.T) @ Qb
+    if not (origin and sol.nucleus.model == "point" and sol.nucleus.Z > 0 and sol.table is not None):
+        return (w / r**2 * Pa.T) @ Qb
+    rc = _origin_radius(sol)
+    outside = r >= rc
+    out = (w[outside] / r[outside] ** 2 * Pa[outside].T) @ Qb[outside]
+    inside = (w[~outside] / r[~outside] ** 2 * Pa[~outside].T) @ Qb[~outside]
+    ba = [i for i, x in enumerate(rows) if sol[ka].branches[x] == "bound"]
+    bb = [j for j, x in enumerate(cols) if sol[kb].branches[x] == "bound"]
+    sa = {i: origin_series(sol, ka, rows[i], rc) for i in ba}
+    sb = {j: origin_series(sol, kb, cols[j], rc) for j in bb}
+    for i in ba:
+        for j in bb:
+            (ga, pa, _), (gb, _, qb) = sa[i], sb[j]
+            p = ga + gb - 1 + np.add.outer(np.arange(pa.size), np.arange(qb.size))
+            inside[i, j] = np.sum(np.outer(pa, qb) * rc**p / p)
+    return out + inside
+
+
+def _origin_radius(sol: Solution) -> float:
+    """The knot nearest to 1e-4/Z (but at least 100 r_min): r_c of :func:`hyperfine`."""
+    knots = np.unique(sol.splines.knots)
+    target = max(1e-4 / sol.nucleus.Z, 100 * knots[1])
+    return float(knots[np.argmin(np.abs(np.log(knots[1:] / target))) + 1])
+
+
+def origin_series(sol: Solution, kappa: int, root: int, rc: float, terms: int = 10):
+    """Frobenius series of a bound state in a point-Coulomb field, scaled to the basis function.
+
+    P = r^gamma sum_k a_k r^k, Q = r^gamma sum_k b_k r^k, gamma = sqrt(kappa^2 - (Z/c)^2); the radial
+    equations give b_0 = (gamma + kappa) c a_0 / Z and, for k >= 1,
+    (gamma + k + kappa) a_k - (Z/c) b_k = ((eps + 2c^2)/c) b_(k-1),
+    (Z/c) a_k + (gamma + k - kappa) b_k = -(eps/c) a_(k-1)
+    (the standard series solution, e.g. Bethe & Salpeter 1957 §14).  a_0 is fitted to P of the
+    basis on (rc, 3 rc).  Returns gamma, the coefficients of P (a_k) and of Q (b_k).
+    """
+    Z, c = sol.nucleus.Z, sol.c
+    eps = float(sol[kappa].energies[root])
+    gamma = np.sqrt(kappa * kappa - (Z / c) ** 2)
+    a, b = np.zeros(terms), np.zeros(terms)
+    a[0], b[0] = 1.0, (gamma + kappa) * c / Z
+    for k in range(1, terms):
+        M = np.array([[gamma + k + kappa, -Z / c], [Z / c, gamma + k - kappa]])
+        a[k], b[k] = np.linalg.solve(M, [(eps + 2 * c * c) / c * b[k - 1], -eps / c * a[k - 1]])
+    r, _ = sol.grid
+    near = (r > rc) & (r < 3 * rc)
+    P = sol.sample(kappa, [root], "P")[0][near, 0]
+    shape = r[near] ** gamma * np.polynomial.polynomial.polyval(r[near], a)
+    amp = float(shape @ P / (shape @ shape))
+    return gamma, amp * a, amp * b
 
 
 def _cumulative(r: np.ndarray, w: np.ndarray, f: np.ndarray, nq: int) -> np.ndarray:

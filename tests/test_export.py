@@ -60,6 +60,7 @@ def test_existing_file_needs_force_and_bad_files_are_one_line_errors(tmp_path, c
     assert "\n" not in str(err.value)
     assert main(["export", "--z", "10", "--out", str(tmp_path / "x.txt")]) == 2
     assert main(["export", "--z", "10", "--out", str(tmp_path / "y.h5"), "--with", "slater,dipole"]) == 2
+    assert main(["export", "--z", "10", "--out", str(tmp_path / "y.h5"), "--with", "quadrupole"]) == 2
 
 
 def test_hydrogen_1s_2p_oscillator_strength():
@@ -122,15 +123,29 @@ def test_slater_block_in_the_export(tmp_path, capsys):
     assert "--slater" in capsys.readouterr().err
 
 
-@pytest.mark.parametrize("Z,tol", [(1, 1e-7), (50, 1e-6)])
+@pytest.mark.parametrize("Z,tol", [(1, 1e-8), (50, 1e-6), (92, 1e-6)])
 def test_hyperfine_integral_of_1s_against_breit(Z, tol):
     """int P Q / r^2 of 1s = -alpha Z^3 / (gamma (2 gamma - 1)) (Breit, Phys. Rev. 35, 1447 (1930),
-    from memory); measured 7.9e-8 (Z = 1) and 4.4e-7 (Z = 50) with the default basis."""
+    from memory), point nucleus, default basis; measured 2.0e-9, 2.6e-9, 1.6e-8 with the
+    origin series (7.9e-8, 4.4e-7, 1.2e-4 without it, also checked here)."""
     sol = solve_cached(ion={"Z": Z, "nucleus": "point"}, solve={"kappas": [-1]})
     a = sol[-1].indices("bound")[:1]
     g = gamma_1s(Z)
-    value = integrals.hyperfine(sol, -1, -1, a, a)[0, 0]
-    assert abs(value / (-(Z**3) / C / (g * (2 * g - 1))) - 1) < tol
+    exact = -(Z**3) / C / (g * (2 * g - 1))
+    assert abs(integrals.hyperfine(sol, -1, -1, a, a)[0, 0] / exact - 1) < tol
+    plain = abs(integrals.hyperfine(sol, -1, -1, a, a, origin=False)[0, 0] / exact - 1)
+    assert plain > abs(integrals.hyperfine(sol, -1, -1, a, a)[0, 0] / exact - 1)
+
+
+@pytest.mark.parametrize("model,sizes", [("gauss", (160, 200)), ("sphere", (160, 200)), ("fermi", (240, 280))])
+def test_hyperfine_integral_converges_for_finite_nuclei(model, sizes):
+    """With a finite nucleus the 1s hyperfine integral converges in size to 1e-9 (Z = 92)."""
+    vals = []
+    for size in sizes:
+        sol = solve_cached(ion={"Z": 92, "nucleus": model}, basis={"size": size}, solve={"kappas": [-1]})
+        a = sol[-1].indices("bound")[:1]
+        vals.append(integrals.hyperfine(sol, -1, -1, a, a)[0, 0])
+    assert abs(vals[0] / vals[1] - 1) < 1e-9
 
 
 def test_slater_integrals_symmetry_and_hydrogenic_limit():
