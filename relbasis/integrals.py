@@ -103,6 +103,8 @@ def hyperfine(sol: Solution, ka: int, kb: int, rows=None, cols=None, origin: boo
     sb = {j: origin_series(sol, kb, cols[j], rc) for j in bb}
     for i in ba:
         for j in bb:
+            if sa[i] is None or sb[j] is None:
+                continue  # no fit possible (too few grid points near r_c): keep the quadrature
             (ga, pa, _), (gb, _, qb) = sa[i], sb[j]
             p = ga + gb - 1 + np.add.outer(np.arange(pa.size), np.arange(qb.size))
             inside[i, j] = np.sum(np.outer(pa, qb) * rc**p / p)
@@ -124,7 +126,8 @@ def origin_series(sol: Solution, kappa: int, root: int, rc: float, terms: int = 
     (gamma + k + kappa) a_k - (Z/c) b_k = ((eps + 2c^2)/c) b_(k-1),
     (Z/c) a_k + (gamma + k - kappa) b_k = -(eps/c) a_(k-1)
     (the standard series solution, e.g. Bethe & Salpeter 1957 §14).  a_0 is fitted to P of the
-    basis on (rc, 3 rc).  Returns gamma, the coefficients of P (a_k) and of Q (b_k).
+    basis on (rc, 3 rc).  Returns gamma, the coefficients of P (a_k) and of Q (b_k), or None
+    when the grid has too few points there for a fit.
     """
     Z, c = sol.nucleus.Z, sol.c
     eps = float(sol[kappa].energies[root])
@@ -136,9 +139,14 @@ def origin_series(sol: Solution, kappa: int, root: int, rc: float, terms: int = 
         a[k], b[k] = np.linalg.solve(M, [(eps + 2 * c * c) / c * b[k - 1], -eps / c * a[k - 1]])
     r, _ = sol.grid
     near = (r > rc) & (r < 3 * rc)
+    if np.count_nonzero(near) < 4:
+        return None
     P = sol.sample(kappa, [root], "P")[0][near, 0]
     shape = r[near] ** gamma * np.polynomial.polynomial.polyval(r[near], a)
-    amp = float(shape @ P / (shape @ shape))
+    norm = shape @ shape
+    if not (np.isfinite(norm) and norm > 0):
+        return None
+    amp = float(shape @ P / norm)
     return gamma, amp * a, amp * b
 
 

@@ -69,6 +69,12 @@ def valid_config(draw):
             cfg["basis"]["exponent_max"] = draw(st.floats(1.0, 1e12))
         return cfg
     if draw(st.booleans()):
+        cfg["basis"]["wall"] = draw(st.sampled_from(["dirichlet", "bag"]))
+    if draw(st.integers(0, 5)) == 0:  # a free particle in a cavity
+        cfg["ion"] = {"Z": 0}
+        cfg["basis"]["r_max"] = draw(st.floats(0.01, 10))
+        return cfg
+    if draw(st.booleans()):
         cfg["basis"]["r_max"] = draw(st.floats(0.01, 500))
     if draw(st.booleans()):
         cfg["basis"]["r_min"] = draw(st.floats(1e-12, 1.0))
