@@ -152,6 +152,29 @@ def per_state(sol: Solution, max_n: int) -> list[dict]:
     return rows
 
 
+def continuum_outliers(sol: Solution, count: int = 20) -> list[tuple[int, float, float]]:
+    """Roots among the lowest ``count`` positive ones of each kappa whose exact balance residual
+    ||Q - c D+P/(2c^2 + eps - V)|| / ||Q|| stands out: above 0.1 and above 1000 times the
+    median of those roots (well-represented continuum states measure 1e-12..1e-6, an intruder
+    O(1..100): a free particle in a bag, DKB, kappa = +1, R = 0.01 bohr).  (kappa, eps, residual)."""
+    r, w = sol.grid
+    V = sol.nucleus.potential(r)
+    c = sol.c
+    out = []
+    for kappa in sol.kappas:
+        idx = sol[kappa].indices("positive")[:count]
+        if idx.size < 3:
+            continue
+        P, Q, DP = sol.sample(kappa, idx, "PQD")
+        e = sol[kappa].energies[idx][None, :]
+        res = np.sqrt(w @ (Q - c * DP / (2 * c * c + e - V[:, None])) ** 2) / np.sqrt(np.maximum(w @ Q**2, 1e-300))
+        typical = np.median(res)
+        for i, x in zip(idx, res):
+            if x > max(0.1, 1e3 * typical):
+                out.append((kappa, float(sol[kappa].energies[i]), float(x)))
+    return out
+
+
 def _negative_mirror(sol: Solution, count: int = 10) -> float:
     """Largest ||P - D-Q/2c|| / ||P|| among the negative-energy roots next to -2c^2."""
     r, w = sol.grid
@@ -304,6 +327,15 @@ def audit(config=None, *, max_n: int = 5, target: float = 1e-8, **overrides) -> 
         else:
             advice.append(f"{len(spur)} spurious roots in kappa = " + ", ".join(f"{k:+d}" for k in sorted(by_kappa))
                           + ": refine the grid near the origin (smaller r_min) or raise size")
+
+    # intruders in the low positive continuum
+    outliers = continuum_outliers(sol)
+    checks.append(Check("continuum-outliers", "fail" if outliers else "pass", float(len(outliers)), 0.0,
+                        "; ".join(f"kappa {k:+d}: eps = {e:.6g} (balance residual {x:.2g})" for k, e, x in outliers)
+                        or "none among the lowest 20 positive roots of each kappa"))
+    if outliers:
+        advice.append("roots in the positive continuum fit no physical state (" + ", ".join(
+            f"kappa {k:+d} at {e:.6g}" for k, e, _ in outliers[:4]) + "): change the wall or the balance scheme")
 
     # node count
     bad_nodes = [s for s in focus if s["nodes"] != s["nodes_expected"]]

@@ -120,3 +120,12 @@ def test_audit_bad_input(capsys, argv, needle):
     assert main(argv) == 2
     err = capsys.readouterr().err
     assert len(err.strip().splitlines()) == 1 and needle in err
+
+
+def test_intruders_in_the_positive_continuum_are_reported():
+    """Free particle, DKB, bag wall, R = 0.01 bohr: kappa = +1 has one root (eps ~ 110247 hartree)
+    between the second and third exact bag levels whose balance residual stands out by orders of
+    magnitude (docs/audit.md); the audit names it."""
+    result = audited(ion={"Z": 0}, basis={"r_max": 0.01, "wall": "bag"}, solve={"kappas": [-1, 1]})
+    check = result.check("continuum-outliers")
+    assert check.status == "fail" and "kappa +1: eps = 1102" in check.detail
