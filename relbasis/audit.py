@@ -27,7 +27,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.linalg as sl
 
-from . import __version__, constants
+from . import __version__
 from .analytic import orbital_l
 from .angular import dipole_partners, reduced_c
 from .constants import C

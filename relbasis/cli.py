@@ -118,7 +118,6 @@ def basis_line(sol) -> str:
 def levels_table(sol, show_all: bool = False) -> str:
     """The readable table of `relbasis levels`."""
     nuc = sol.nucleus
-    b = sol.config.basis
     point = nuc.model == "point" and nuc.Z > 0
     lines = []
     radius = f", rms radius {nuc.rms_radius_fm:.4f} fm" if nuc.rms_radius_fm is not None else ""
