@@ -82,7 +82,7 @@ def hyperfine(sol: Solution, ka: int, kb: int, rows=None, cols=None, origin: boo
 
     For a point nucleus the bound states go as r^gamma near the origin, which polynomials
     follow slowly, and the integrand as r^(gamma_a + gamma_b - 2).  With ``origin`` (default),
-    the part inside r_c (a knot with Z r_c ~ 1e-4) of every pair of bound states is taken from
+    the part inside r_c (a knot with Z r_c ~ 1e-3) of every pair of bound states is taken from
     their Frobenius series, matched to the basis functions just outside r_c
     (:func:`origin_series`); other roots and finite nuclei are integrated on the grid alone.
     """
@@ -112,9 +112,9 @@ def hyperfine(sol: Solution, ka: int, kb: int, rows=None, cols=None, origin: boo
 
 
 def _origin_radius(sol: Solution) -> float:
-    """The knot nearest to 1e-4/Z (but at least 100 r_min): r_c of :func:`hyperfine`."""
+    """The knot nearest to 1e-3/Z (but at least 100 r_min): r_c of :func:`hyperfine`."""
     knots = np.unique(sol.splines.knots)
-    target = max(1e-4 / sol.nucleus.Z, 100 * knots[1])
+    target = max(1e-3 / sol.nucleus.Z, 100 * knots[1])
     return float(knots[np.argmin(np.abs(np.log(knots[1:] / target))) + 1])
 
 
