@@ -154,8 +154,11 @@ def _reorthogonalise(vectors: np.ndarray, S: np.ndarray, refined: np.ndarray) ->
     if R.size == 0 or O.size == 0:
         return
     VR, VO = vectors[:, R], vectors[:, O]
-    VO = VO - VR @ (VR.T @ (S @ VO))
-    VO /= np.sqrt(np.einsum("ij,ij->j", VO, S @ VO))
+    SVO = S @ VO  # the one large product; S VO after the projection follows from it cheaply
+    C = VR.T @ SVO
+    VO = VO - VR @ C
+    SVO = SVO - (S @ VR) @ C
+    VO /= np.sqrt(np.einsum("ij,ij->j", VO, SVO))
     vectors[:, O] = VO
 
 
