@@ -249,21 +249,25 @@ def _cmd_levels(args) -> int:
 # ----------------------------------------------------------------------------- main
 
 
+def _model_command(sub, name: str, help: str, description: str) -> argparse.ArgumentParser:
+    """A subcommand that takes a config file and the ion/basis override flags."""
+    cmd = sub.add_parser(name, help=help, description=description)
+    cmd.add_argument("config", nargs="?", help="TOML config file ([ion], [basis], [solve]); default: the embedded demo ion")
+    _add_model_options(cmd)
+    return cmd
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="relbasis", description="Finite bases of Dirac orbitals for relativistic atomic-structure work.")
     p.add_argument("--version", action="version", version=f"relbasis {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    lv = sub.add_parser("levels", help="solve one-electron Dirac spectra and sort every root",
-                        description="Spectrum of the radial Dirac equation for a one-electron ion in a B-spline basis.")
-    lv.add_argument("config", nargs="?", help="TOML config file ([ion], [basis], [solve]); default: the embedded demo ion")
-    _add_model_options(lv)
+    lv = _model_command(sub, "levels", "solve one-electron Dirac spectra and sort every root",
+                        "Spectrum of the radial Dirac equation for a one-electron ion in a finite basis.")
     lv.add_argument("--json", action="store_true", help="print the JSON document instead of the table")
     lv.add_argument("--all", action="store_true", help="list the continuum roots too")
     lv.set_defaults(func=_cmd_levels)
-    au = sub.add_parser("audit", help="diagnose a basis: checks, verdict, advice",
-                        description="Checks of a basis before a production run, with a verdict and advice.")
-    au.add_argument("config", nargs="?", help="TOML config file; default: the embedded demo ion")
-    _add_model_options(au)
+    au = _model_command(sub, "audit", "diagnose a basis: checks, verdict, advice",
+                        "Checks of a basis before a production run, with a verdict and advice.")
     au.add_argument("--max-n", type=int, default=5, metavar="N", help="bound states checked: n <= N (default 5)")
     au.add_argument("--target", type=float, default=1e-8, help="relative accuracy wanted of the bound levels (default 1e-8)")
     au.add_argument("--json", action="store_true", help="print the audit JSON document")
@@ -278,10 +282,8 @@ def build_parser() -> argparse.ArgumentParser:
     sc.add_argument("--scheduler", metavar="ADDRESS", help="dask.distributed scheduler, e.g. tcp://127.0.0.1:8786")
     sc.add_argument("--quiet", action="store_true", help="no progress bar")
     sc.set_defaults(func=_cmd_scan)
-    ex = sub.add_parser("export", help="write the basis (every root, both branches) to HDF5 or .npz + JSON",
-                        description="Export a basis for a many-body code; layout in docs/file-format.md.")
-    ex.add_argument("config", nargs="?", help="TOML config file; default: the embedded demo ion")
-    _add_model_options(ex)
+    ex = _model_command(sub, "export", "write the basis (every root, both branches) to HDF5 or .npz + JSON",
+                        "Export a basis for a many-body code; layout in docs/file-format.md.")
     ex.add_argument("--out", required=True, help="FILE.h5 (HDF5) or FILE.npz (numpy + FILE.json)")
     ex.add_argument("--with", dest="with_", metavar="BLOCKS", help="integral blocks: dipole,hyperfine,slater")
     ex.add_argument("--grid", metavar="R_MIN:R_MAX:COUNT", help="log-spaced radial grid for P and Q "
