@@ -108,10 +108,3 @@ def sigma_element(kappa_b: int, kappa_a: int, m2: int = 1) -> float:
             if mu_a == mu_b and ml_a == ml_b:
                 total += cb * ca * mu_a  # sigma_z chi_mu = 2 mu chi_mu, and mu_a is 2 mu
     return total
-
-
-def wigner_eckart_z(kappa_b: int, kappa_a: int, m2: int = 1) -> float:
-    """The factor <j_b m|T^1_0|j_a m> / <j_b||T^1||j_a> = (-1)^(j_b - m) (j_b 1 j_a; -m 0 m)."""
-    jb, ja = j_twice(kappa_b), j_twice(kappa_a)
-    sign = -1.0 if ((jb - m2) // 2) % 2 else 1.0
-    return sign * wigner_3j_doubled(jb, 2, ja, -m2, 0, m2)

@@ -179,11 +179,6 @@ class DiracBasis:
         P, Q = (x[0] for x in self.components(np.array([self.splines.r_max]))[:2])
         return 0.5 * self.c * (np.outer(P, P) - np.outer(Q, Q) - np.outer(P, Q) - np.outer(Q, P))
 
-    def _local_index(self, table: QuadratureTable) -> np.ndarray:
-        """Row of H of each local slot (n_int, slots), -1 where the spline is removed."""
-        cols = table.first[:, None] + np.arange(self.splines.order)[None, :]
-        return np.concatenate([g[cols] for g in self._global_index()], axis=1)
-
     def _local(self, table: QuadratureTable):
         """(P, Q, D+P) per interval, (n_int, nq, slots), and the row of H of each slot (-1: removed)."""
         k = self.splines.order
@@ -199,14 +194,6 @@ class DiracBasis:
         """(P, Q, D+P, D-Q) of the functions on every interval of the table, for reuse."""
         P, Q, DP, DQ, idx = self._local(table)
         return LocalChannels(P, Q, DP, DQ, idx)
-
-    def evaluate_on(self, table: QuadratureTable, coefficients: np.ndarray, channels: str = "PQD",
-                    local: "LocalChannels | None" = None):
-        """P, Q and/or D+P of the functions with the given coefficients (size x m) at the table's
-        points, each (n_int * nq, m), interval by interval (only k splines per family live there).
-        """
-        local = local or self.local_channels(table)
-        return local.evaluate(coefficients, channels)
 
     def matrices(self, table: QuadratureTable, potential: np.ndarray, local: LocalChannels | None = None):
         """H and S (dense, size x size) with V given at the table's points, shape (n_int, nq).

@@ -99,7 +99,7 @@ class Solution:
         basis["dropped"] = {str(k): self.dropped.get(k, 0) for k in self.kappas}
         return {
             "relbasis": __version__,
-            "constants": {"alpha": constants.ALPHA, "codata": constants.CODATA, "hartree_eV": constants.HARTREE_EV},
+            "constants": constants.as_dict(),
             "ion": self.nucleus.to_dict(),
             "basis": basis,
             "states": self.states(),
@@ -194,7 +194,7 @@ def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np
     local = basis.local_channels(table)
     H, S = basis.matrices(table, V, local)
     system = eigensolve(H, S, threshold)
-    system = refine(system, H, S, (system.energies > -2 * c * c) & (system.energies < 0), basis.band_order())
+    system = refine(system, H, S, examined(system.energies, c), basis.band_order())
     window = examined(system.energies, c)
     coarse = coarse or splines.quadrature(1)
     P_all = basis.local_channels(coarse).dense("P", basis.size) @ system.vectors
@@ -211,7 +211,7 @@ def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, ba
     r, w = grid
     H, S = basis.matrices(nucleus, grid)
     system = eigensolve(H, S, threshold if threshold is not None else DEFAULT_THRESHOLD)
-    system = refine(system, H, S, (system.energies > -2 * c * c) & (system.energies < 0))
+    system = refine(system, H, S, examined(system.energies, c))
     window = examined(system.energies, c)
     Pm, Qm, Dm = basis.components(r, ("P", "Q", "DP"))
     P_all = Pm @ system.vectors
