@@ -45,7 +45,11 @@ from .errors import ConfigError, InputError
 from .nucleus import FERMI_MIN_RMS_FM, MODELS, Nucleus, default_rms_radius_fm, make_nucleus
 
 FAMILIES = ("bspline", "gaussian")
-DEFAULT_SIZE = {"bspline": 90, "gaussian": 40}
+DEFAULT_SIZE = {"bspline": 100, "gaussian": 40}
+DEFAULT_CAVITY = 250.0
+"""Default cavity radius times Z (bohr): r_max = 250/Z with the default 100 splines holds the
+point-nucleus levels n <= 7 of |kappa| <= 4 to 2e-12 (Z <= 100) and 1e-10 (Z = 118); the
+earlier 150/Z (90 splines) left n = 6 at 1e-8 and n = 7 at 1e-5 (docs/convergence.md)."""
 DEFAULT_ORDER = 10
 GAUSS_ZMAX_CORE = 1e6  # x Z^2
 GAUSS_ZMAX_NUCLEUS = 3.0  # / R_rms^2
@@ -315,7 +319,7 @@ def resolve(config: Config) -> tuple[Config, Nucleus]:
     """The config with every ion-dependent default filled in, and the nucleus it describes.
 
     Defaults (measured with the test-suite's checks against the exact Dirac–Coulomb levels):
-    r_max = 150/Z (n = 5 converged to 1e-12); r_scale = 20/Z (capped at r_max/2);
+    r_max = 250/Z (n <= 7 converged to 1e-11, DEFAULT_CAVITY); r_scale = 20/Z (capped at r_max/2);
     r_min = 10^(-6 - 5(1 - gamma))/Z for a point nucleus, gamma = sqrt(1 - (Z alpha)^2), since the
     r^gamma behaviour at the origin needs knots ever closer in as gamma falls (Z = 118: 3e-9/Z);
     r_min = R/10 for a finite nucleus of edge radius R, where the orbitals are analytic at 0;
@@ -335,7 +339,7 @@ def resolve(config: Config) -> tuple[Config, Nucleus]:
         return Config(ion, _resolve_gaussian(b, nuc), config.solve), nuc
     if Z == 0 and b.r_max is None and not isinstance(b.knots, tuple):
         raise InputError("ion.Z = 0 (a free particle) needs basis.r_max, the cavity radius in bohr")
-    r_max = b.r_max if b.r_max is not None else 150.0 / Z
+    r_max = b.r_max if b.r_max is not None else DEFAULT_CAVITY / Z
     if b.r_min is not None:
         r_min = b.r_min
     elif Z == 0:

@@ -16,3 +16,10 @@ class ConfigError(InputError):
 
 class PhysicsRangeError(InputError):
     """The requested model lies outside what the physics allows (e.g. Z*alpha >= 1, point nucleus)."""
+
+
+class MissingLevelError(InputError, KeyError):
+    """A level asked for by n is not in the spectrum (the basis did not produce it)."""
+
+    def __str__(self) -> str:  # KeyError would quote the message
+        return str(self.args[0]) if self.args else ""

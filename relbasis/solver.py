@@ -23,7 +23,8 @@ from .eigen import DEFAULT_THRESHOLD, Eigensystem, refine, solve as eigensolve
 from .gaussian import even_tempered
 from .errors import InputError
 from .nucleus import Nucleus
-from .spectrum import Spectrum, classify, duplicate_roots, examined
+from .confidence import reduced_config
+from .spectrum import Spectrum, classify, duplicate_roots, examined, gap
 
 
 @dataclass(frozen=True)
@@ -84,6 +85,7 @@ class Solution:
                     "branch": spec.branches[i],
                     "energy_hartree": float(eps),
                     "flags": list(spec.flags[i]),
+                    "error_estimate": _estimate(spec, i),
                 }
                 if spec.n[i] is not None and self.exact(kappa, spec.n[i]) is not None:
                     ex = self.exact(kappa, spec.n[i])
@@ -104,6 +106,13 @@ class Solution:
             "basis": basis,
             "states": self.states(),
         }
+
+
+def _estimate(spec: Spectrum, i: int) -> float | None:
+    """The JSON ``error_estimate`` of root i: relative, or None where none is made."""
+    if spec.error_estimate is None or not np.isfinite(spec.error_estimate[i]):
+        return None
+    return float(spec.error_estimate[i])
 
 
 def as_config(config=None, **overrides) -> Config:
@@ -184,7 +193,7 @@ def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np
                 point_charge: float, partner: Spectrum | None = None,
                 coarse: QuadratureTable | None = None,
                 threshold: float | None = None, wall: str = "dirichlet",
-                c: float = C) -> tuple[DiracBasis, Spectrum, Eigensystem]:
+                c: float = C, reference: dict[int, float] | None = None) -> tuple[DiracBasis, Spectrum, Eigensystem]:
     """Basis, matrices, roots, refinement and sorting for one symmetry.
 
     ``coarse`` (one point per knot interval) serves to fix the sign of the continuum roots
@@ -194,31 +203,33 @@ def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np
     local = basis.local_channels(table)
     H, S = basis.matrices(table, V, local)
     system = eigensolve(H, S, threshold)
-    system = refine(system, H, S, examined(system.energies, c), basis.band_order())
+    system = refine(system, H, S, gap(system.energies, c), basis.band_order())
     window = examined(system.energies, c)
     coarse = coarse or splines.quadrature(1)
     P_all = basis.local_channels(coarse).dense("P", basis.size) @ system.vectors
     P, Q, DP = local.evaluate(system.vectors[:, window], "PQD")
     external = duplicate_roots(kappa, system.energies, partner)
-    spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, table.w.ravel(), V.ravel(), c, external)
+    spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, table.w.ravel(), V.ravel(), c, external,
+                    r=table.r.ravel(), wall=splines.r_max, reference=reference)
     return basis, spec, system
 
 
 def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, balance: str, grid,
-                         threshold: float | None, partner: Spectrum | None = None, c: float = C):
+                         threshold: float | None, partner: Spectrum | None = None, c: float = C,
+                         reference: dict[int, float] | None = None):
     """The Gaussian counterpart of :func:`solve_kappa` (dense functions, one radial grid)."""
     basis = GaussianDiracBasis.build(exponents, kappa, balance, c)
     r, w = grid
     H, S = basis.matrices(nucleus, grid)
     system = eigensolve(H, S, threshold if threshold is not None else DEFAULT_THRESHOLD)
-    system = refine(system, H, S, examined(system.energies, c))
+    system = refine(system, H, S, gap(system.energies, c))
     window = examined(system.energies, c)
     Pm, Qm, Dm = basis.components(r, ("P", "Q", "DP"))
     P_all = Pm @ system.vectors
     v = system.vectors[:, window]
     external = duplicate_roots(kappa, system.energies, partner)
     spec = classify(kappa, system.energies, system.vectors, P_all, P_all[:, window], Qm @ v, Dm @ v, w,
-                    nucleus.potential(r), c, external)
+                    nucleus.potential(r), c, external, r=r, wall=None, reference=reference)
     return basis, spec, system
 
 
@@ -227,13 +238,27 @@ def solve(config=None, *, c: float | None = None, **overrides) -> Solution:
 
     ``c`` replaces the speed of light (atomic units) for checks of the nonrelativistic limit
     (c -> infinity); every physical result uses the default c = 1/alpha.
+
+    Every labelled level carries an error estimate (:mod:`relbasis.confidence`), made by
+    solving a reduced basis first and comparing level by level.
     """
     if c is not None and not (isinstance(c, (int, float)) and np.isfinite(c) and c > 1.0):
         raise InputError(f"c = {c!r}: the speed of light must be a number > 1 (default 1/alpha)")
     c = C if c is None else float(c)
     cfg, nucleus = resolve(as_config(config, **overrides))
+    small = reduced_config(cfg)
+    reference = None
+    if small is not None:
+        rough = _solve_resolved(small, nucleus, c, None)
+        reference = {k: {n: float(e) for n, e, b in zip(s.n, s.energies, s.branches) if n is not None and b == "bound"}
+                     for k, s in rough.spectra.items()}
+    return _solve_resolved(cfg, nucleus, c, reference)
+
+
+def _solve_resolved(cfg: Config, nucleus: Nucleus, c: float, reference: dict | None) -> Solution:
+    """The spectra of a resolved config; ``reference`` (kappa -> {n: eps}) feeds the estimates."""
     if cfg.basis.family == "gaussian":
-        return _solve_gaussian(cfg, nucleus, c)
+        return _solve_gaussian(cfg, nucleus, c, reference)
     splines = build_splines(cfg, nucleus)
     table = splines.quadrature(cfg.basis.quadrature)
     V = nucleus.potential(table.r)
@@ -244,8 +269,12 @@ def solve(config=None, *, c: float | None = None, **overrides) -> Solution:
     for kappa in _kappa_order(cfg):
         bases[kappa], spectra[kappa], systems[kappa] = solve_kappa(
             kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa), coarse,
-            cfg.basis.overlap_threshold, cfg.basis.wall, c)
+            cfg.basis.overlap_threshold, cfg.basis.wall, c, _for(reference, kappa))
     return _solution(cfg, nucleus, splines, bases, spectra, systems, table=table, c=c)
+
+
+def _for(reference: dict | None, kappa: int) -> dict[int, float] | None:
+    return None if reference is None else reference.get(kappa, {})
 
 
 def _kappa_order(cfg: Config):
@@ -260,12 +289,12 @@ def _solution(cfg, nucleus, splines, bases, spectra, systems: dict[int, Eigensys
                     table, gauss_grid, c)
 
 
-def _solve_gaussian(cfg: Config, nucleus: Nucleus, c: float = C) -> Solution:
+def _solve_gaussian(cfg: Config, nucleus: Nucleus, c: float = C, reference: dict | None = None) -> Solution:
     b = cfg.basis
     exps = np.asarray(b.exponents) if b.exponents is not None else even_tempered(b.size, b.exponent_min, b.exponent_max)
     grid = GaussianDiracBasis.build(exps, -1, b.balance, c).grid(nucleus)
     bases, spectra, systems = {}, {}, {}
     for kappa in _kappa_order(cfg):
         bases[kappa], spectra[kappa], systems[kappa] = solve_kappa_gaussian(
-            kappa, exps, nucleus, b.balance, grid, b.overlap_threshold, spectra.get(-kappa), c)
+            kappa, exps, nucleus, b.balance, grid, b.overlap_threshold, spectra.get(-kappa), c, _for(reference, kappa))
     return _solution(cfg, nucleus, None, bases, spectra, systems, gauss_grid=grid, c=c)

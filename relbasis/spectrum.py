@@ -32,11 +32,13 @@ Rydberg level of a wide Gaussian set): the root stays ``bound`` and unflagged, a
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from .analytic import j_twice, orbital_l
+from .errors import InputError, MissingLevelError
 
 BRANCHES = ("negative", "bound", "positive", "spurious")
 BALANCE_THRESHOLD = 0.1
@@ -50,6 +52,10 @@ The innermost lobe of a hydrogen-like ns state holds 8e-4 for n = 8 (measured, d
 PEAK_FLOOR = 1e-2
 """A lobe of P counts only if its peak reaches this share of max |P|: tail ripples of a 20-spline
 basis reach 4e-3; inner lobes of hydrogen-like states with n <= 10 peak above 5e-2 (estimate)."""
+SPURIOUS_FLAGS = ("kinetic-balance-residual", "duplicate-level", "node-count")
+"""Flags that make a root of the gap spurious (a root no physical state explains).  Other
+flags (``nodes-disagree``, ``unconverged``, ``cavity-limited``, ``precision-limited``) leave
+the root in the bound branch but withdraw the claim of accuracy."""
 DUPLICATE_TOLERANCE = 1e-6
 """Relative distance below which two levels of partner symmetries count as the same level."""
 
@@ -89,10 +95,20 @@ def count_nodes(P: np.ndarray, w: np.ndarray, floor: float = NODE_FLOOR) -> np.n
     return out
 
 
-def examined(energies: np.ndarray, c: float) -> np.ndarray:
-    """Roots whose functions :func:`classify` needs on the fine grid: the bound-state window
-    -2c^2 < eps < 0.  (Continuum roots are sorted by energy alone; the audit examines them.)"""
+def gap(energies: np.ndarray, c: float) -> np.ndarray:
+    """Roots in the bound-state window -2c^2 < eps < 0 (the ones refined and labelled)."""
     return (energies > -2 * c * c) & (energies < 0)
+
+
+DIVE_WINDOW = 1.0
+"""Depth below -2c^2, in units of c^2, searched for levels that have dived (see :func:`_dived`)."""
+
+
+def examined(energies: np.ndarray, c: float) -> np.ndarray:
+    """Roots whose functions :func:`classify` needs on the fine grid: the gap -2c^2 < eps < 0
+    and the dive window -(2 + DIVE_WINDOW) c^2 < eps <= -2c^2 below it.  (Other continuum roots
+    are sorted by energy alone; the audit examines them.)"""
+    return (energies > -(2 + DIVE_WINDOW) * c * c) & (energies < 0)
 
 
 def _first_sign(P: np.ndarray) -> np.ndarray:
@@ -106,7 +122,11 @@ def _first_sign(P: np.ndarray) -> np.ndarray:
 
 @dataclass(frozen=True)
 class Spectrum:
-    """All roots of one symmetry kappa, in ascending energy, with branch, n, label and flags."""
+    """All roots of one symmetry kappa, in ascending energy, with branch, n, label and flags.
+
+    ``error_estimate`` holds the estimated relative error of each labelled level (NaN where
+    none is made: continua, spurious roots, dived levels); see :mod:`relbasis.confidence`.
+    """
 
     kappa: int
     energies: np.ndarray
@@ -117,6 +137,7 @@ class Spectrum:
     flags: tuple[tuple[str, ...], ...]
     nodes: np.ndarray = field(repr=False)
     balance_residual: np.ndarray = field(repr=False)
+    error_estimate: np.ndarray | None = field(default=None, repr=False)
 
     def __len__(self) -> int:
         return self.energies.size
@@ -124,66 +145,166 @@ class Spectrum:
     def indices(self, branch: str) -> np.ndarray:
         return np.array([i for i, b in enumerate(self.branches) if b == branch], dtype=int)
 
-    def level(self, n: int) -> float:
-        """Binding energy of the bound state with principal number n."""
-        for e, m in zip(self.energies, self.n):
+    def trusted(self, i: int) -> bool:
+        """True when root i is plainly trustworthy: branch ``bound`` and no flag."""
+        return self.branches[i] == "bound" and not self.flags[i]
+
+    def level(self, n: int, *, strict: bool = False) -> float:
+        """Binding energy (hartree) of the level with principal number n.
+
+        A level that carries a flag (unconverged, cavity-limited, dived, ...) is returned with
+        an :class:`UntrustedLevelWarning` naming the flags, or refused with an
+        :class:`~relbasis.errors.InputError` when ``strict`` is true.  A missing level raises
+        :class:`~relbasis.errors.MissingLevelError` (an InputError and a KeyError).
+        """
+        for i, m in enumerate(self.n):
             if m == n:
-                return float(e)
-        raise KeyError(f"no bound state n = {n} for kappa = {self.kappa}")
+                if self.flags[i]:
+                    msg = (f"{self.labels[i]} (kappa = {self.kappa}) is not plainly trustworthy: "
+                           f"flags {', '.join(self.flags[i])}")
+                    if strict:
+                        raise InputError(msg)
+                    warnings.warn(msg, UntrustedLevelWarning, stacklevel=2)
+                return float(self.energies[i])
+        raise MissingLevelError(f"no level n = {n} for kappa = {self.kappa} in this basis "
+                                f"(levels present: {', '.join(str(m) for m in self.n if m is not None) or 'none'})")
+
+
+class UntrustedLevelWarning(UserWarning):
+    """A level was read that carries a flag: it is not claimed to the documented accuracy."""
+
+
+def _dived(kappa: int, energies: np.ndarray, cand: np.ndarray, P: np.ndarray, Q: np.ndarray, r: np.ndarray,
+           w: np.ndarray, missing: list[int]) -> dict[int, int]:
+    """Roots just below -2c^2 that are bound levels which have dived into the negative continuum.
+
+    Above the critical charge a level (n, kappa) leaves the gap; in a finite basis it survives
+    as one root below -2c^2 that, unlike its continuum neighbours, keeps the large component
+    dominant and compact: its share int P^2 stands out against the neighbours (measured, Z = 170
+    sphere: 0.38 against 0.005..0.01) and its <r> is far below theirs (2e-3 against 0.5 bohr).
+    Only levels missing from the gap (``missing``: n below the lowest level found there) are
+    looked for, so that no continuum root is ever given a label at ordinary Z.  Returns
+    {root index: n}.
+    """
+    if not missing or cand.size < 3:
+        return {}
+    l = orbital_l(kappa)
+    pw = w @ (P * P) / np.maximum(w @ (P * P + Q * Q), 1e-300)
+    rm = (w * r) @ (P * P + Q * Q) / np.maximum(w @ (P * P + Q * Q), 1e-300)
+    nodes = count_nodes(P, w)
+    out = {}
+    for j in range(cand.size):
+        lo, hi = max(0, j - 4), min(cand.size, j + 5)
+        others = np.r_[np.arange(lo, j), np.arange(j + 1, hi)]
+        if others.size == 0:
+            continue
+        if pw[j] > max(0.1, 5 * np.median(pw[others])) and rm[j] < 0.2 * np.median(rm[others]):
+            n = int(nodes[j]) + l + 1
+            if n in missing and n not in out.values():
+                out[int(cand[j])] = n
+    return out
 
 
 def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.ndarray, P: np.ndarray,
              Q: np.ndarray, DP: np.ndarray, w: np.ndarray, V: np.ndarray, c: float,
-             external: dict[int, str] | None = None) -> Spectrum:
-    """Branches, n, labels and flags for the roots of one symmetry.
+             external: dict[int, str] | None = None, *, r: np.ndarray | None = None,
+             wall: float | None = None, reference: dict[int, float] | None = None) -> Spectrum:
+    """Branches, n, labels, flags and error estimates for the roots of one symmetry.
 
     ``P_all`` holds P of every root on an ascending radial grid, coarse or fine (it fixes the
     sign of the roots not examined); ``P``, ``Q`` and ``DP`` hold P, Q and D+P of the examined
-    roots (:func:`examined`: -2c^2 < eps < 2c^2; points x examined roots) on a grid with
-    quadrature weights ``w`` and potential ``V``; ``vectors`` are the
-    coefficients (basis x roots), returned with the sign fixed so that P > 0 near the origin.
-    ``external`` maps root indices to flags found outside this symmetry (duplicate levels).
+    roots (:func:`examined`: the gap -2c^2 < eps < 0 and the dive window below it; points x
+    examined roots) on the grid ``r`` with quadrature weights ``w`` and potential ``V``;
+    ``vectors`` are the coefficients (basis x roots), returned with the sign fixed so that
+    P > 0 near the origin.  ``external`` maps root indices to flags found outside this
+    symmetry (duplicate levels, lost precision).  ``wall`` is the cavity radius (None: no
+    wall) and ``reference`` maps n to the level of a reduced basis; both feed the error
+    estimate of every labelled level (:mod:`relbasis.confidence`).
+
+    n comes from the node count of P (n - l - 1 nodes) and is cross-checked against the order
+    of the roots within the symmetry: a root whose node count disagrees with its place gets
+    the flag ``nodes-disagree`` (and no n at all if its node count repeats one already given).
     """
+    from .confidence import CONFIDENCE_THRESHOLD, cavity_estimate
+
     external = external or {}
     l = orbital_l(kappa)
     window = examined(energies, c)
+    gap = window & (energies > -2 * c * c)
     sign = _first_sign(P_all)
     sign[window] = _first_sign(P)
     vectors = vectors * sign[None, :]
     P, Q, DP = P * sign[window], Q * sign[window], DP * sign[window]
+    in_gap = gap[window]
     nodes = np.full(energies.size, -1)
     residual = np.full(energies.size, np.nan)
-    if np.any(window):
-        nodes[window] = count_nodes(P, w)
-        e = energies[window][None, :]
-        q_exact = c * DP / (2 * c * c + e - V[:, None])
-        num = np.sqrt(w @ (Q - q_exact) ** 2)
-        den = np.sqrt(w @ Q**2)
-        residual[window] = num / np.maximum(den, np.finfo(float).tiny)
+    estimate = np.full(energies.size, np.nan)
+    cavity = np.zeros(energies.size)
+    if np.any(gap):
+        Pg, Qg, DPg = P[:, in_gap], Q[:, in_gap], DP[:, in_gap]
+        nodes[gap] = count_nodes(Pg, w)
+        e = energies[gap][None, :]
+        q_exact = c * DPg / (2 * c * c + e - V[:, None])
+        num = np.sqrt(w @ (Q[:, in_gap] - q_exact) ** 2)
+        den = np.sqrt(w @ Qg**2)
+        residual[gap] = num / np.maximum(den, np.finfo(float).tiny)
+        if wall is not None and r is not None:
+            cavity[gap] = cavity_estimate(energies[gap], Pg, r, w, V, kappa, wall, c)
 
-    branches, ns, labels, flags = [], [], [], []
-    expected = l + 1
-    for i, eps in enumerate(energies):
-        if eps < -2 * c * c:
-            branches.append("negative"), ns.append(None), labels.append(None), flags.append(())
-            continue
-        if eps >= 0:
-            branches.append("positive"), ns.append(None), labels.append(None), flags.append(())
-            continue
+    # first pass: which roots of the gap are candidates for a level, with their node-count n
+    reasons: dict[int, list[str]] = {}
+    candidates = []
+    for i in np.flatnonzero(gap):
         why = [external[i]] if i in external else []
         if not residual[i] <= BALANCE_THRESHOLD:
             why.append("kinetic-balance-residual")
-        elif not why and nodes[i] + l + 1 < expected:
-            why.append("node-count")  # repeats the node count of a lower level: an intruder
-        if why:
-            branches.append("spurious"), ns.append(None), labels.append(None), flags.append(tuple(why))
+        reasons[i] = why
+        if not any(f in SPURIOUS_FLAGS for f in why):
+            candidates.append(i)
+    lowest = min((int(nodes[i]) + l + 1 for i in candidates), default=None)
+    dived = {}
+    if lowest is not None and lowest > l + 1 and np.any(window & ~gap) and r is not None:
+        below = window & ~gap
+        dived = _dived(kappa, energies, np.flatnonzero(below), P[:, ~in_gap], Q[:, ~in_gap], r, w,
+                       list(range(l + 1, lowest)))
+
+    branches = ["negative" if e < -2 * c * c else "positive" if e >= 0 else None for e in energies]
+    ns: list[int | None] = [None] * energies.size
+    labels: list[str | None] = [None] * energies.size
+    flags: list[tuple[str, ...]] = [()] * energies.size
+    for i, n in dived.items():
+        ns[i], labels[i], flags[i] = n, orbital_label(n, kappa), ("dived",)
+    expected = l + 1 + len(dived)
+    used = set(dived.values())
+    for i in np.flatnonzero(gap):
+        why = reasons[i]
+        if not why and nodes[i] + l + 1 < expected and (nodes[i] + l + 1) in used:
+            why.append("node-count")  # repeats the node count of a level already found: an intruder
+        if any(f in SPURIOUS_FLAGS for f in why):
+            branches[i], flags[i] = "spurious", tuple(why)
             continue
-        # more nodes than n allows are ripples of a state the basis does not resolve (high n):
-        # the root is still that physical level; ``nodes`` keeps the count for diagnostics
-        branches.append("bound"), ns.append(expected), labels.append(orbital_label(expected, kappa)), flags.append(())
+        branches[i] = "bound"
+        n = int(nodes[i]) + l + 1
+        if n != expected or n in used:
+            why.append("nodes-disagree")
         expected += 1
+        if n in used:
+            flags[i] = tuple(why)
+            continue
+        used.add(n)
+        ns[i], labels[i] = n, orbital_label(n, kappa)
+        resolution = np.nan
+        if reference is not None:
+            ref = reference.get(n)
+            resolution = abs(energies[i] - ref) / abs(energies[i]) if ref is not None else np.inf
+        estimate[i] = np.nanmax([resolution, cavity[i]]) if np.isfinite(cavity[i]) or np.isfinite(resolution) else np.inf
+        if reference is not None and not resolution <= CONFIDENCE_THRESHOLD:
+            why.append("unconverged")
+        if not cavity[i] <= CONFIDENCE_THRESHOLD:
+            why.append("cavity-limited")
+        flags[i] = tuple(dict.fromkeys(why))
     return Spectrum(kappa, energies, vectors, tuple(branches), tuple(ns), tuple(labels), tuple(flags),
-                    nodes, residual)
+                    nodes, residual, estimate)
 
 
 def duplicate_roots(kappa: int, energies: np.ndarray, partner: Spectrum | None,

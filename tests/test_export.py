@@ -139,10 +139,10 @@ def test_hyperfine_integral_of_1s_against_breit(Z, tol):
 
 @pytest.mark.parametrize("model,sizes", [("gauss", (160, 200)), ("sphere", (160, 200)), ("fermi", (240, 280))])
 def test_hyperfine_integral_converges_for_finite_nuclei(model, sizes):
-    """With a finite nucleus the 1s hyperfine integral converges in size to 1e-9 (Z = 92)."""
+    """With a finite nucleus the 1s hyperfine integral converges in size to 1e-9 (Z = 92, cavity 150/Z)."""
     vals = []
     for size in sizes:
-        sol = solve_cached(ion={"Z": 92, "nucleus": model}, basis={"size": size}, solve={"kappas": [-1]})
+        sol = solve_cached(ion={"Z": 92, "nucleus": model}, basis={"size": size, "r_max": 150 / 92}, solve={"kappas": [-1]})
         a = sol[-1].indices("bound")[:1]
         vals.append(integrals.hyperfine(sol, -1, -1, a, a)[0, 0])
     assert abs(vals[0] / vals[1] - 1) < 1e-9

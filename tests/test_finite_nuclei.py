@@ -40,8 +40,11 @@ def test_finite_size_shift_of_light_ions(Z, model, n):
 
 
 def test_finite_nuclei_flag_nothing():
-    """DKB with a finite nucleus: no root of |kappa| <= 4 flagged (Shabaev et al., PRL 93, 130405 (2004))."""
+    """DKB with a finite nucleus: no spurious root of |kappa| <= 4 (Shabaev et al., PRL 93, 130405
+    (2004)), and the default cavity holds every level n <= 7 without a flag."""
     for Z, model in [(1, "gauss"), (26, "sphere"), (54, "fermi"), (92, "fermi"), (118, "fermi")]:
         sol = solve_cached(ion={"Z": Z, "nucleus": model})
         for kappa in sol.kappas:
-            assert not any(sol[kappa].flags), (Z, model, kappa)
+            spec = sol[kappa]
+            assert "spurious" not in spec.branches, (Z, model, kappa)
+            assert not any(f for f, n in zip(spec.flags, spec.n) if n is not None and n <= 7), (Z, model, kappa)
