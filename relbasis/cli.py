@@ -32,6 +32,8 @@ def _add_model_options(p: argparse.ArgumentParser) -> None:
     ion.add_argument("--a", type=int, metavar="A", help="mass number (default: per element)")
     ion.add_argument("--nucleus", metavar="MODEL", help="point | sphere | gauss | fermi (default fermi; gauss for the lightest)")
     ion.add_argument("--rms-radius", type=float, metavar="FM", help="rms charge radius in fm")
+    ion.add_argument("--radius", metavar="SOURCE", help="formula | measured: where the rms radius comes from "
+                     "without --rms-radius (default formula; measured needs the extra relbasis[radii])")
     basis = p.add_argument_group("basis (override [basis] of the config)")
     basis.add_argument("--family", help="bspline | gaussian (default bspline)")
     basis.add_argument("--size", type=int, help="functions per component (default 90 B-splines, 40 Gaussians)")
@@ -51,7 +53,7 @@ def _add_model_options(p: argparse.ArgumentParser) -> None:
 
 
 def _overrides(args) -> dict:
-    ion = {"Z": args.z, "A": args.a, "nucleus": args.nucleus, "rms_radius_fm": args.rms_radius}
+    ion = {"Z": args.z, "A": args.a, "nucleus": args.nucleus, "rms_radius_fm": args.rms_radius, "radius": args.radius}
     basis = {"family": args.family, "size": args.size, "order": args.order, "r_min": args.r_min,
              "r_max": args.r_max, "r_scale": args.r_scale, "knots": args.knots, "balance": args.balance,
              "quadrature": args.quadrature, "exponent_min": args.exponent_min, "exponent_max": args.exponent_max,
@@ -115,13 +117,20 @@ def basis_line(sol) -> str:
     return text
 
 
+def ion_line(nuc) -> str:
+    """The ion as the table headers state it: Z, A, model, rms radius and where it came from."""
+    if nuc.rms_radius_fm is not None:
+        radius = f", rms radius {nuc.rms_radius_fm:.4f} fm (source: {nuc.rms_radius_source})"
+    else:
+        radius = f", rms radius: {nuc.rms_radius_source}"
+    return f"Z = {nuc.Z:g}, A = {nuc.A}, {nuc.model} nucleus{radius}; no QED"
+
+
 def levels_table(sol, show_all: bool = False) -> str:
     """The readable table of `relbasis levels`."""
     nuc = sol.nucleus
     point = nuc.model == "point" and nuc.Z > 0
-    lines = []
-    radius = f", rms radius {nuc.rms_radius_fm:.4f} fm" if nuc.rms_radius_fm is not None else ""
-    lines.append(f"relbasis {__version__}: Z = {nuc.Z:g}, A = {nuc.A}, {nuc.model} nucleus{radius}; no QED")
+    lines = [f"relbasis {__version__}: {ion_line(nuc)}"]
     lines.append(basis_line(sol))
     lines.append(f"constants: CODATA {constants.CODATA}, alpha = {constants.ALPHA:.13g}, 1 hartree = {constants.HARTREE_EV:.12g} eV")
     lines.append("energies are binding energies eps = E - m c^2")
@@ -157,10 +166,7 @@ def levels_table(sol, show_all: bool = False) -> str:
 def audit_table(result) -> str:
     """The readable table of `relbasis audit`."""
     sol = result.solution
-    nuc = sol.nucleus
-    radius = f", rms radius {nuc.rms_radius_fm:.4f} fm" if nuc.rms_radius_fm is not None else ""
-    lines = [f"relbasis {__version__} audit: Z = {nuc.Z:g}, A = {nuc.A}, {nuc.model} nucleus{radius}; no QED",
-             basis_line(sol), ""]
+    lines = [f"relbasis {__version__} audit: {ion_line(sol.nucleus)}", basis_line(sol), ""]
     lines.append(f"{'check':<26} {'status':<6} {'value':>10} {'threshold':>10}  detail")
     for c in result.checks:
         value = "-" if c.value is None else f"{c.value:.3g}"
@@ -234,6 +240,7 @@ def _cmd_export(args) -> int:
     path = export(sol, args.out, force=args.force, grid=grid, blocks=blocks, slater=slater)
     total = sum(len(sol[k]) for k in sol.kappas)
     print(f"wrote {path}: {total} roots in {len(sol.kappas)} symmetries" + (f", blocks {', '.join(blocks)}" if blocks else ""))
+    print(f"ion: {ion_line(sol.nucleus)}")
     return 0
 
 

@@ -6,6 +6,7 @@ Z = 92                 # nuclear charge (required)
 A = 238                # mass number (optional; a default per element otherwise)
 nucleus = "fermi"      # "point" | "sphere" | "gauss" | "fermi"
 rms_radius_fm = 5.86   # optional; otherwise 0.836 A^(1/3) + 0.570 fm
+radius = "formula"     # "formula" | "measured" (Angeli and Marinova 2013; without rms_radius_fm)
 
 [basis]
 family = "bspline"
@@ -42,7 +43,7 @@ from .constants import C, FM_BOHR
 from .dirac import BALANCES, WALLS
 from .dirac_gaussian import BALANCES as GAUSSIAN_BALANCES
 from .errors import ConfigError, InputError
-from .nucleus import FERMI_MIN_RMS_FM, MODELS, Nucleus, default_rms_radius_fm, make_nucleus
+from .nucleus import FERMI_MIN_RMS_FM, MODELS, RADIUS_CHOICES, Nucleus, make_nucleus
 
 FAMILIES = ("bspline", "gaussian")
 DEFAULT_SIZE = {"bspline": 100, "gaussian": 40}
@@ -60,12 +61,18 @@ DEFAULT_KAPPAS = (-1, 1, -2, 2, -3, 3, -4, 4)
 
 @dataclass(frozen=True)
 class IonSpec:
-    """The one-electron ion: nuclear charge and model.  ``nucleus=None`` means the default."""
+    """The one-electron ion: nuclear charge and model.  ``nucleus=None`` means the default.
+
+    ``radius``: where the rms radius comes from when ``rms_radius_fm`` is not given, "formula"
+    (None: the default) or "measured"; a resolved config has it None and the radius itself in
+    ``rms_radius_fm`` (its source is in the nucleus record, ``Nucleus.rms_radius_source``).
+    """
 
     Z: float
     A: int | None = None
     nucleus: str | None = None
     rms_radius_fm: float | None = None
+    radius: str | None = None
 
 
 @dataclass(frozen=True)
@@ -168,7 +175,14 @@ def _check_ion(d: dict) -> IonSpec:
     A = None if d.get("A") is None else _integer("ion.A", d["A"], 1)
     nucleus = None if d.get("nucleus") is None else _choice("ion.nucleus", d["nucleus"], MODELS)
     rms = None if d.get("rms_radius_fm") is None else _real("ion.rms_radius_fm", d["rms_radius_fm"])
-    return IonSpec(float(Z) if not float(Z).is_integer() else int(Z), A, nucleus, rms)
+    radius = d.get("radius")
+    if radius is not None and radius not in RADIUS_CHOICES:
+        hint = _suggest(radius, RADIUS_CHOICES) or " (a radius in fm goes in ion.rms_radius_fm)"
+        raise ConfigError(f"ion.radius = {radius!r}: valid are 'formula', 'measured'{hint}")
+    if radius is not None and rms is not None:
+        raise ConfigError(f"ion.rms_radius_fm = {rms:g} and ion.radius = {radius!r} both say where the rms "
+                          "radius comes from: drop one of them")
+    return IonSpec(float(Z) if not float(Z).is_integer() else int(Z), A, nucleus, rms, radius)
 
 
 _BSPLINE_ONLY = ("order", "r_min", "r_max", "r_scale", "knots", "quadrature", "wall")
@@ -301,18 +315,16 @@ def default_nucleus(ion: IonSpec) -> str:
     if ion.Z == 0:
         return "point"  # no nucleus at all: V = 0
     rms = ion.rms_radius_fm
-    if rms is None and ion.A is not None:
-        rms = default_rms_radius_fm(ion.A)
-    if rms is None:
+    if rms is None:  # the radius the ion will get: formula or measured, default A or given
         try:
-            rms = make_nucleus(ion.Z, "sphere", None, None).rms_radius_fm
+            rms = make_nucleus(ion.Z, "sphere", ion.A, None, ion.radius).rms_radius_fm
         except InputError:
             return "fermi"  # let make_nucleus report what is missing
     return "fermi" if rms >= FERMI_MIN_RMS_FM else "gauss"
 
 
 def nucleus_of(ion: IonSpec) -> Nucleus:
-    return make_nucleus(ion.Z, default_nucleus(ion), ion.A, ion.rms_radius_fm)
+    return make_nucleus(ion.Z, default_nucleus(ion), ion.A, ion.rms_radius_fm, ion.radius)
 
 
 def resolve(config: Config) -> tuple[Config, Nucleus]:
@@ -332,7 +344,8 @@ def resolve(config: Config) -> tuple[Config, Nucleus]:
         raise InputError(
             f"Z = {Z:g} gives Z*alpha = {Z / C:.4f} >= 1: a point nucleus has no 1s solution; use a finite nucleus (ion.nucleus = 'fermi')"
         )
-    ion = replace(config.ion, Z=config.ion.Z, A=nuc.A, nucleus=nuc.model, rms_radius_fm=nuc.rms_radius_fm)
+    ion = replace(config.ion, Z=config.ion.Z, A=nuc.A, nucleus=nuc.model, rms_radius_fm=nuc.rms_radius_fm,
+                  radius=None)  # the radius itself is filled in; where it came from: nuc.rms_radius_source
     if b.family == "gaussian":
         if Z == 0:
             raise InputError("ion.Z = 0 (a free particle) needs the B-spline family and basis.r_max (the cavity radius)")

@@ -65,6 +65,9 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=()) -> dict:
         "hartree_eV": constants.HARTREE_EV, "family": cfg.basis.family, "balance": cfg.basis.balance,
         "wall": cfg.basis.wall or "", "config_json": json.dumps(cfg.to_dict(), sort_keys=True),
         "ion_json": json.dumps(sol.nucleus.to_dict(), sort_keys=True),
+        # Added within layout version 1 (readers ignore attributes they do not know; older
+        # files lack it and still load): where the rms radius came from, with its reference.
+        "rms_radius_source": sol.nucleus.rms_radius_source,
         "energy_unit": "hartree", "length_unit": "bohr",
     }
     r_q, w_q = sol.grid

@@ -16,7 +16,10 @@ The sphere radius and the Gauss exponent follow from the definition <r^2> = R_rm
 
 and tends to -Z/r far out.  The default rms radius is R_rms = 0.836 A^(1/3) + 0.570 fm
 (W. R. Johnson, G. Soff, At. Data Nucl. Data Tables 33, 405 (1985), from memory), with the
-default A from :mod:`relbasis.elements`.
+default A from :mod:`relbasis.elements`; ``radius = "measured"`` takes the measured radius of
+the nuclide (Z, A) from I. Angeli, K. P. Marinova, At. Data Nucl. Data Tables 99, 69 (2013)
+instead (:mod:`relbasis.radii`, an optional extra).  Every nucleus records where its radius
+came from (``rms_radius_source``), and the output prints it.
 
 Z = 0 means "no nucleus" (a free particle): V = 0 and rho = 0 for every model.
 """
@@ -37,6 +40,16 @@ from relbasis.errors import InputError, PhysicsRangeError
 
 MODELS = ("point", "sphere", "gauss", "fermi")
 """Nuclear models, the values of the ``nucleus`` key."""
+
+RADIUS_CHOICES = ("formula", "measured")
+"""Where the rms radius comes from when ``rms_radius_fm`` is not given (the ``radius`` key)."""
+
+# Where a nucleus's rms radius came from, as the output states it (Nucleus.rms_radius_source).
+FORMULA_SOURCE = ("formula 0.836 A^(1/3) + 0.570 fm, W. R. Johnson, G. Soff, "
+                  "At. Data Nucl. Data Tables 33, 405 (1985)")
+USER_SOURCE = "user value, rms_radius_fm"
+NO_RADIUS_SOURCE = "none (point nucleus)"
+NO_NUCLEUS_SOURCE = "none (no nucleus, Z = 0)"
 
 FERMI_SKIN_THICKNESS_FM: float = 2.30
 """Fermi skin thickness t (10 % to 90 % fall of the density), common practice."""
@@ -108,6 +121,14 @@ def _check_rms(rms) -> float:
     if not math.isfinite(rms) or rms <= 0:
         raise InputError(f"rms_radius_fm = {rms:g} must be finite and > 0 (fm)")
     return rms
+
+
+def _check_radius_choice(radius) -> str | None:
+    if radius is None or (isinstance(radius, str) and radius in RADIUS_CHOICES):
+        return radius
+    close = difflib.get_close_matches(str(radius).lower(), RADIUS_CHOICES, n=1) if isinstance(radius, str) else []
+    hint = f" (did you mean {close[0]!r}?)" if close else " (a radius in fm goes in rms_radius_fm)"
+    raise InputError(f"radius = {radius!r}: valid are 'formula', 'measured'{hint}")
 
 
 def _check_r(r) -> np.ndarray:
@@ -203,8 +224,12 @@ class Nucleus:
     """A nuclear charge distribution and its potential.
 
     Build it with :func:`make_nucleus` (or directly: the same defaults and checks apply).
-    ``A`` defaults to the element table, ``rms_radius_fm`` to 0.836 A^(1/3) + 0.570 fm; the
-    point model has ``rms_radius_fm = None``.  Derived parameters (bohr) are filled in:
+    ``A`` defaults to the element table, ``rms_radius_fm`` to 0.836 A^(1/3) + 0.570 fm, or with
+    ``radius = "measured"`` to the measured radius of (Z, A) (Angeli and Marinova 2013); the
+    point model has ``rms_radius_fm = None``.  ``rms_radius_kind`` is "formula", "measured",
+    "user" (rms_radius_fm given) or None (no radius), ``rms_radius_source`` the one-line text
+    the output prints (with the reference), ``rms_radius_uncertainty_fm`` the uncertainty of a
+    measured radius (else None).  Derived parameters (bohr) are filled in:
     ``sphere_radius_bohr`` (sphere), ``gauss_exponent`` (eta in bohr^-2, gauss),
     ``fermi_c_bohr`` and ``fermi_a_bohr`` (fermi); the others are None.  With Z = 0 there is
     no charge and no derived parameter.
@@ -214,6 +239,10 @@ class Nucleus:
     model: str = "fermi"
     A: int | None = None
     rms_radius_fm: float | None = None
+    radius: str | None = None  # None: the formula
+    rms_radius_kind: str | None = field(init=False, default=None)
+    rms_radius_source: str = field(init=False, default=NO_RADIUS_SOURCE)
+    rms_radius_uncertainty_fm: float | None = field(init=False, default=None)
     sphere_radius_bohr: float | None = field(init=False, default=None)
     gauss_exponent: float | None = field(init=False, default=None)
     fermi_c_bohr: float | None = field(init=False, default=None)
@@ -225,31 +254,55 @@ class Nucleus:
         model = _check_model(self.model)
         A = None if self.A is None else _check_A(self.A)
         rms = None if self.rms_radius_fm is None else _check_rms(self.rms_radius_fm)
+        choice = _check_radius_choice(self.radius)
         integral_Z = Z.is_integer()
         if A is not None and integral_Z and A < Z:
             raise InputError(f"A = {A} is below Z = {Z:g}: the mass number counts the protons too")
         if model == "point" and rms is not None:
             raise InputError(f"rms_radius_fm = {rms:g} given with nucleus = 'point', which has no size; "
                              "drop it or choose 'sphere', 'gauss' or 'fermi'")
+        if choice is not None and rms is not None:
+            raise InputError(f"rms_radius_fm = {rms:g} and radius = {choice!r} both say where the rms radius "
+                             "comes from: drop one of them")
+        if choice is not None and (model == "point" or Z == 0):
+            why = "Z = 0 has no nucleus" if Z == 0 else "nucleus = 'point' has no size"
+            raise InputError(f"radius = {choice!r} given, but {why}; drop it or choose a finite nucleus "
+                             "('sphere', 'gauss' or 'fermi')")
         finite = model != "point" and Z > 0
         needs_A = finite and rms is None
         # A from the table: recorded for output whenever the table has Z, and required (with
         # the table's InputError outside 1..118) when the default radius needs it.
+        A_given = A is not None
         if A is None and integral_Z and Z >= 1 and (needs_A or Z <= Z_MAX):
             A = default_mass_number(int(Z))
+        kind, source, unc = (None, NO_NUCLEUS_SOURCE if Z == 0 else NO_RADIUS_SOURCE, None)
+        if rms is not None:
+            kind, source = "user", USER_SOURCE
         if needs_A:
             if A is None:
                 raise InputError(
                     f"no default mass number for non-integer Z = {Z:g}: give A or rms_radius_fm in [ion]"
                 )
-            rms = default_rms_radius_fm(A)
-            rms_note = f" (the default 0.836 A^(1/3) + 0.570 fm for A = {A})"
+            if choice == "measured":
+                if not integral_Z:
+                    raise InputError(f"radius = 'measured' needs a whole Z (a nuclide), not Z = {Z:g}; "
+                                     "give rms_radius_fm or radius = 'formula'")
+                rms, unc, source = _measured(int(Z), A, A_given)
+                kind = "measured"
+                rms_note = f" ({source})"
+            else:
+                rms, kind, source = default_rms_radius_fm(A), "formula", FORMULA_SOURCE
+                rms_note = f" (the default 0.836 A^(1/3) + 0.570 fm for A = {A})"
         else:
             rms_note = ""
         set_("Z", Z)
         set_("model", model)
         set_("A", A)
         set_("rms_radius_fm", rms)
+        set_("radius", choice)
+        set_("rms_radius_kind", kind)
+        set_("rms_radius_source", source)
+        set_("rms_radius_uncertainty_fm", unc)
         if not finite:
             return
         r_bohr = rms * FM_BOHR
@@ -347,12 +400,16 @@ class Nucleus:
         return 0.0
 
     def to_dict(self) -> dict:
-        """JSON-ready record: Z, A, nucleus, rms_radius_fm and the model's parameters in fm."""
+        """JSON-ready record: Z, A, nucleus, rms_radius_fm, where the radius came from, and the
+        model's parameters in fm."""
         out = {
             "Z": int(self.Z) if self.Z.is_integer() else self.Z,
             "A": self.A,
             "nucleus": self.model,
             "rms_radius_fm": self.rms_radius_fm,
+            "rms_radius_source": self.rms_radius_source,
+            "rms_radius_kind": self.rms_radius_kind,
+            "rms_radius_uncertainty_fm": self.rms_radius_uncertainty_fm,
         }
         if self.sphere_radius_bohr is not None:
             out["sphere_radius_fm"] = self.sphere_radius_bohr * BOHR_FM
@@ -365,13 +422,29 @@ class Nucleus:
         return out
 
 
-def make_nucleus(Z, model: str = "fermi", A: int | None = None, rms_radius_fm: float | None = None) -> Nucleus:
-    """Validated :class:`Nucleus`; A defaults to the element table, R_rms to 0.836 A^(1/3) + 0.570 fm.
+def _measured(Z: int, A: int, A_given: bool) -> tuple[float, float, str]:
+    """(rms radius, uncertainty, source text) of (Z, A) from the measured table."""
+    from . import radii
+    from .elements import symbol
+
+    m = radii.measured_radius(Z, A)
+    sym = symbol(Z)
+    which = f"{A}{sym}" if A_given else f"{A}{sym} (default A of {sym})"
+    return m.rms_radius_fm, m.uncertainty_fm, (
+        f"measured, {which}, uncertainty {m.uncertainty_fm:.4f} fm, {radii.TABLE_REFERENCE}")
+
+
+def make_nucleus(Z, model: str = "fermi", A: int | None = None, rms_radius_fm: float | None = None,
+                 radius: str | None = None) -> Nucleus:
+    """Validated :class:`Nucleus`; A defaults to the element table, R_rms to 0.836 A^(1/3) + 0.570 fm
+    (or, with ``radius = "measured"``, to the measured radius of (Z, A), :mod:`relbasis.radii`).
 
     InputError (one line, naming the key) for Z < 0 or not finite, an unknown model, A not a
     positive integer or below Z, rms_radius_fm not finite and > 0, an rms radius with the point
     model, no A for Z outside 1..118 (or non-integer Z) with a finite model and no radius, and
     a Fermi rms radius below FERMI_MIN_RMS_FM (about 1.88 fm: e.g. hydrogen with its default
-    1.406 fm), where 'sphere' or 'gauss' must be used.
+    1.406 fm), where 'sphere' or 'gauss' must be used.  With ``radius``: a value other than
+    "formula" or "measured", a radius given as well as rms_radius_fm, a point nucleus or Z = 0,
+    the optional extra not installed, or a nuclide not in the measured table.
     """
-    return Nucleus(Z=Z, model=model, A=A, rms_radius_fm=rms_radius_fm)
+    return Nucleus(Z=Z, model=model, A=A, rms_radius_fm=rms_radius_fm, radius=radius)

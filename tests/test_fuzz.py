@@ -23,6 +23,7 @@ ion = st.fixed_dictionaries(
         "A": st.one_of(st.integers(-5, 500), anything),
         "nucleus": st.one_of(st.sampled_from(["point", "sphere", "gauss", "fermi", "fermy", ""]), anything),
         "rms_radius_fm": st.one_of(st.floats(-1, 10), anything),
+        "radius": st.one_of(st.sampled_from(["formula", "measured", "measure"]), anything),
         "charge": anything,
     },
 )
