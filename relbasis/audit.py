@@ -30,7 +30,6 @@ import scipy.linalg as sl
 from . import __version__
 from .analytic import orbital_l
 from .angular import dipole_partners, reduced_c
-from .constants import C
 from .solver import Solution, as_config, solve
 
 STATUSES = ("pass", "warn", "fail")
@@ -119,8 +118,10 @@ def _edge_fractions(sol: Solution, w: np.ndarray, P: np.ndarray, Q: np.ndarray):
 def per_state(sol: Solution, max_n: int) -> list[dict]:
     """Per-root figures for every root in the bound-state window (bound or spurious)."""
     r, w = sol.grid
-    Zalpha = sol.nucleus.Z / C
+    c = sol.c
+    Zalpha = sol.nucleus.Z / c
     coulomb = sol.nucleus.model == "point" and sol.nucleus.Z > 0
+    g = balance_factor(sol)
     rows = []
     for kappa in sol.kappas:
         spec = sol[kappa]
@@ -129,7 +130,7 @@ def per_state(sol: Solution, max_n: int) -> list[dict]:
             continue
         P, Q, DP = sol.sample(kappa, idx, "PQD")
         wq = w @ (Q * Q)
-        kb = np.sqrt(w @ (Q - DP / (2 * C)) ** 2) / np.sqrt(np.maximum(wq, 1e-300))
+        kb = np.sqrt(w @ (Q - g[:, None] * DP / (2 * c)) ** 2) / np.sqrt(np.maximum(wq, 1e-300))
         origin, wall = _edge_fractions(sol, w, P, Q)
         l = orbital_l(kappa)
         for j, i in enumerate(idx):
@@ -145,11 +146,30 @@ def per_state(sol: Solution, max_n: int) -> list[dict]:
                 "small_weight_expected": None if n is None else (Zalpha / n) ** 2 / 4,
                 "origin_fraction": float(origin[j]), "wall_fraction": float(wall[j]),
                 "virial": None,
+                "error_estimate": _num(spec.error_estimate[i]) if spec.error_estimate is not None else None,
             }
             if coulomb:
-                row["virial"] = abs(-2 * C * C * wq[j] - eps) / (eps + C * C)
+                row["virial"] = abs(-2 * c * c * wq[j] - eps) / (eps + c * c)
             rows.append(row)
     return rows
+
+
+def balance_factor(sol: Solution) -> np.ndarray:
+    """g(r) = 2c^2 / (2c^2 - V_s(r)) on the solution's grid, V_s = -Z/r for a point nucleus (else g = 1).
+
+    The kinetic-balance figure compares Q with g D+P / 2c, the zero-energy relation of the
+    Coulomb problem near the nucleus, not with the plain D+P / 2c.  For the exact point-nucleus
+    1s, Q = -sqrt((1 - gamma)/(1 + gamma)) P and D+P = ((gamma - 1)/r - Z) P, so the plain
+    difference Q - D+P/2c carries the term (1 - gamma) P / (2 c r) ~ r^(gamma - 1), whose norm
+    integral int r^(2 gamma - 2) dr diverges once gamma <= 1/2, i.e. Z alpha >= sqrt(3)/2
+    (Z >= 118.7); the figure grew as 2.7 (Z = 116), 4.9 (Z = 118).  With g the singular parts
+    cancel at small r (g D+P/2c -> -(1 - gamma) r P / (Z r) ...), the difference stays of
+    order eps/2c^2 everywhere and the exact 1s passes at every Z < 137 (docs/audit.md).
+    """
+    r = sol.grid[0]
+    if sol.nucleus.model != "point" or sol.nucleus.Z == 0:
+        return np.ones_like(r)
+    return r / (r + sol.nucleus.Z / (2 * sol.c * sol.c))
 
 
 def continuum_outliers(sol: Solution, count: int = 20) -> list[tuple[int, float, float]]:
@@ -184,7 +204,7 @@ def _negative_mirror(sol: Solution, count: int = 10) -> float:
         if neg.size == 0:
             continue
         P, DQ = sol.sample(kappa, neg, "PM")
-        res = np.sqrt(w @ (P - DQ / (2 * C)) ** 2) / np.sqrt(np.maximum(w @ (P * P), 1e-300))
+        res = np.sqrt(w @ (P - DQ / (2 * sol.c)) ** 2) / np.sqrt(np.maximum(w @ (P * P), 1e-300))
         worst = max(worst, float(res.max()))
     return worst
 
@@ -262,13 +282,15 @@ def _level_errors(sol: Solution, max_n: int, reference: Solution | None) -> dict
                 continue
             ref = sol.exact(kappa, n)
             if ref is None and reference is not None:
-                try:
-                    ref = reference[kappa].level(n)
-                except KeyError:
-                    ref = None
+                ref = _level_of(reference[kappa], n)
             if ref is not None:
                 out[lab] = abs(e / ref - 1)
     return out
+
+
+def _level_of(spec, n: int) -> float | None:
+    """The energy of level n in a spectrum, flagged or not (None if absent): for comparisons."""
+    return next((float(e) for e, m in zip(spec.energies, spec.n) if m == n), None)
 
 
 def _resized(sol: Solution, size: int) -> Solution | None:
@@ -303,6 +325,66 @@ def convergence_series(result: "Audit", sizes=None) -> dict:
 # ----------------------------------------------------------------------------- the audit
 
 
+CONFIDENCE_FLAGS = ("unconverged", "cavity-limited", "nodes-disagree", "precision-limited")
+
+
+def _confidence_check(sol: Solution, rows: list[dict], max_n: int, advice: list[str], target: float) -> Check:
+    """Levels n <= max_n whose error estimate or node count withdraws the claim of accuracy,
+    with advice that names the setting which fixes each kind (docs/audit.md)."""
+    from .confidence import CONFIDENCE_THRESHOLD
+
+    b = sol.config.basis
+    low = [s for s in rows if s["branch"] == "bound" and s["n"] is not None and s["n"] <= max_n]
+    missing = [(k, n) for k in sol.kappas for n in range(orbital_l(k) + 1, max_n + 1)
+               if n not in sol[k].n]
+    def kinds_of(s):  # what withdraws the claim for this level, judged against the audit's target
+        out = {f for f in s["flags"] if f in ("nodes-disagree", "precision-limited")}
+        if not (s["error_estimate"] is not None and s["error_estimate"] <= target):
+            out |= {f for f in s["flags"] if f in ("unconverged", "cavity-limited")} or {"unconverged"}
+        return out
+
+    bad = [dict(s, flags=sorted(kinds_of(s))) for s in low if kinds_of(s)]
+    kinds = {f for s in bad for f in s["flags"]}
+    detail = ", ".join(f"{s['label']}: {'/'.join(f for f in s['flags'] if f in CONFIDENCE_FLAGS)}" for s in bad[:8])
+    if missing:
+        detail = (detail + "; " if detail else "") + f"{len(missing)} levels n <= {max_n} not found"
+    worst = max((s["error_estimate"] or 0.0 for s in low), default=0.0)
+    if not bad and not missing:
+        return Check("level-confidence", "pass", worst, target,
+                     f"every level n <= {max_n} has an estimated error below the target {target:.0e} "
+                     f"(worst {worst:.1e}) and the node count its n asks for")
+    spread = _spread(sol)
+    if b.family == "bspline" and spread and ("nodes-disagree" in kinds or missing):
+        advice.append(f"lower r_max to {_default_cavity(sol):.4g} bohr (the default for this ion): with r_max = "
+                      f"{b.r_max:.3g} bohr the knots are spread too thin for the levels n <= {max_n}, whose labels "
+                      "and energies the basis cannot hold")
+    elif "cavity-limited" in kinds:
+        fix = (f"raise r_max to {1.5 * b.r_max:.4g} bohr" if b.family == "bspline"
+               else f"lower exponent_min to {b.exponent_min / 10 if b.exponent_min else 0:.3g}")
+        names = ", ".join(s["label"] for s in bad if "cavity-limited" in s["flags"])[:120]
+        advice.append(f"{fix}: the cavity shifts {names} beyond the target {target:.0e}")
+    size_bound = [s["label"] for s in bad if "cavity-limited" not in s["flags"]
+                  and ({"unconverged", "nodes-disagree"} & set(s["flags"]))]
+    if (size_bound or (missing and "cavity-limited" not in kinds)) and not spread:
+        names = ", ".join(size_bound)
+        advice.append(f"raise size to {b.size + max(20, b.size // 4)}: "
+                      + (f"{names[:120]} not converged in size" if names else f"levels n <= {max_n} missing"))
+    return Check("level-confidence", "fail", float(len(bad) + len(missing)), target, detail)
+
+
+def _spread(sol: Solution) -> bool:
+    """A B-spline cavity more than 20 times the default: knots too thin for the inner levels."""
+    b = sol.config.basis
+    return (b.family == "bspline" and not isinstance(b.knots, tuple) and sol.nucleus.Z > 0
+            and b.r_max > 20 * _default_cavity(sol))
+
+
+def _default_cavity(sol: Solution) -> float:
+    from .config import DEFAULT_CAVITY
+
+    return DEFAULT_CAVITY / float(sol.nucleus.Z)
+
+
 def audit(config=None, *, max_n: int = 5, target: float = 1e-8, **overrides) -> Audit:
     """Solve the basis of ``config`` and run every check (see module docstring)."""
     sol = config if isinstance(config, Solution) else solve(as_config(config, **overrides))
@@ -324,7 +406,7 @@ def audit(config=None, *, max_n: int = 5, target: float = 1e-8, **overrides) -> 
         if cfg.basis.balance in ("none",):
             advice.append(f"use balance = \"{fix}\": {len(spur)} spurious roots in kappa = "
                           + ", ".join(f"{k:+d}" for k in sorted(by_kappa)))
-        else:
+        elif not _spread(sol):  # a cavity far too wide gets its own advice (level-confidence)
             advice.append(f"{len(spur)} spurious roots in kappa = " + ", ".join(f"{k:+d}" for k in sorted(by_kappa))
                           + ": refine the grid near the origin (smaller r_min) or raise size")
 
@@ -343,14 +425,27 @@ def audit(config=None, *, max_n: int = 5, target: float = 1e-8, **overrides) -> 
                         ", ".join(f"{s['label']}: {s['nodes']} nodes" for s in bad_nodes) or
                         f"all {len(focus)} bound states n <= {max_n} have n - l - 1 nodes"))
 
+    # confidence of the levels n <= max_n (the error estimate of the spectrum) and dived levels
+    checks.append(_confidence_check(sol, rows, max_n, advice, target))
+    dived = [(k, sol[k].labels[i], float(sol[k].energies[i])) for k in sol.kappas for i in range(len(sol[k]))
+             if "dived" in sol[k].flags[i]]
+    checks.append(Check("dived-levels", "warn" if dived else "pass", float(len(dived)), 0.0,
+                        "; ".join(f"{lab} (kappa {k:+d}) at eps = {e:.6g} hartree, below -2c^2" for k, lab, e in dived)
+                        or "no level below -2c^2"))
+    for k, lab, e in dived:
+        advice.append(f"{lab} has dived into the negative continuum (eps = {e:.6g} hartree < -2c^2 = "
+                      f"{-2 * sol.c ** 2:.6g}): the charge exceeds the critical charge of this level (see `relbasis "
+                      f"critical`); it is listed with the negative branch, the levels above keep their own n")
+
     # balance
     br = max((s["balance_residual"] or 0.0) for s in focus) if focus else 0.0
     checks.append(Check("balance-residual", _grade(br, 1e-2, 0.1), br, 1e-2,
                         "||Q - c D+P/(2c^2 + eps - V)|| / ||Q||, worst bound state n <= %d" % max_n))
     kb = max((s["kinetic_balance_residual"] or 0.0) for s in focus) if focus else 0.0
-    za2 = (sol.nucleus.Z / C) ** 2
+    za2 = (sol.nucleus.Z / sol.c) ** 2
     checks.append(Check("kinetic-balance", _grade(kb, max(0.5, 3 * za2), 2.0), kb, max(0.5, 3 * za2),
-                        f"||Q - D+P/2c|| / ||Q||, worst bound state; of order (Z alpha)^2 = {za2:.3g} for physical states"))
+                        f"||Q - g D+P/2c|| / ||Q|| with g = 2c^2/(2c^2 - V_point) (1 for a finite nucleus), worst "
+                        f"bound state; of order (Z alpha)^2 = {za2:.3g} for physical states"))
     mirror = _negative_mirror(sol)
     checks.append(Check("kinetic-balance-negative", _grade(mirror, 5.0, 100.0), mirror, 5.0,
                         "||P - D-Q/2c|| / ||P||, worst of the 10 negative-energy roots next to -2c^2 per kappa "
@@ -368,7 +463,9 @@ def audit(config=None, *, max_n: int = 5, target: float = 1e-8, **overrides) -> 
              else "beyond 3/sqrt(zeta_min), the reach of the most diffuse Gaussian")
     checks.append(Check("wall-fraction", _grade(wall, 1e-8, 1e-4), wall, 1e-8,
                         f"share of the norm {where}, worst bound state n <= {max_n}"))
-    if wall > 1e-8 and cfg.basis.family == "bspline":
+    if wall > 1e-8 and any(a.startswith("raise r_max") for a in advice):
+        pass  # the level-confidence advice already names the cavity
+    elif wall > 1e-8 and cfg.basis.family == "bspline":
         advice.append(f"raise r_max to {2 * cfg.basis.r_max:.3g} bohr: the bound states n <= {max_n} reach the wall "
                       f"(norm share {wall:.1e})")
     elif wall > 1e-8:
@@ -406,8 +503,9 @@ def audit(config=None, *, max_n: int = 5, target: float = 1e-8, **overrides) -> 
     checks.append(Check("closure-without-negative", "pass", without_neg, None,
                         "the same sum without the negative-energy roots: what a basis without them would miss "
                         "(keep them in sums over intermediate states)"))
-    ground = min(((k, sol[k].n[i]) for k in sol.kappas for i in sol[k].indices("bound")),
-                 key=lambda kn: sol[kn[0]].level(kn[1]), default=None)
+    ground = min(((k, sol[k].n[i], sol[k].energies[i]) for k in sol.kappas for i in sol[k].indices("bound")
+                  if sol[k].n[i] is not None), key=lambda kne: kne[2], default=None)
+    ground = ground[:2] if ground else None
     rule = sum_rule(sol, *ground) if ground else None
     if rule is None:
         checks.append(Check("sum-rule", "pass", None, None,
@@ -433,10 +531,13 @@ def audit(config=None, *, max_n: int = 5, target: float = 1e-8, **overrides) -> 
     errs = _level_errors(sol, max_n, reference)
     worst = max(errs.values(), default=0.0)
     against = "the exact Dirac–Coulomb levels" if point else f"a basis of size {cfg.basis.size + 10}"
-    checks.append(Check("convergence", _grade(worst, target, 1e-6), worst, target,
-                        f"worst relative change of the bound levels n <= {max_n} against {against}"))
+    status = _grade(worst, target, 1e-6) if errs or sol.nucleus.Z == 0 else "fail"
+    checks.append(Check("convergence", status, worst, target,
+                        f"worst relative change of the bound levels n <= {max_n} against {against}"
+                        + ("" if errs or sol.nucleus.Z == 0 else "; no level n <= max_n found to compare")))
     conv["levels"] = errs
-    if worst > target:
+    cavity_bound = any("cavity-limited" in r["flags"] for r in focus) or _spread(sol)
+    if worst > target and not cavity_bound and not any(a.startswith("raise size") for a in advice):
         advice.append(f"raise size to {cfg.basis.size + 20}: bound levels n <= {max_n} differ by {worst:.1e} "
                       f"from {against} (target {target:g})")
     if not advice and any(c.status != "pass" for c in checks):

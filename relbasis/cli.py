@@ -19,6 +19,10 @@ from .errors import InputError
 _EXAMPLE = "relbasis levels --z 92"
 
 
+EXIT_FAILED_VERDICT = 3
+"""Exit status of ``relbasis audit --strict`` when the verdict is fail (2 is bad input)."""
+
+
 class _Parser(argparse.ArgumentParser):
     """argparse with one-line errors (exit status 2), as for every other input problem."""
 
@@ -135,19 +139,25 @@ def levels_table(sol, show_all: bool = False) -> str:
     lines.append(f"constants: CODATA {constants.CODATA}, alpha = {constants.ALPHA:.13g}, 1 hartree = {constants.HARTREE_EV:.12g} eV")
     lines.append("energies are binding energies eps = E - m c^2")
     lines.append("")
-    head = f"{'kappa':>5}  {'branch':<8}  {'label':<7}  {'eps (hartree)':>22}  {'eps (eV)':>22}"
+    head = f"{'kappa':>5}  {'branch':<8}  {'label':<7}  {'eps (hartree)':>22}  {'eps (eV)':>22}  {'est. error':>10}"
     if point:
         head += f"  {'rel. error':>10}"
     head += "  flags"
     lines.append(head)
+    dived = []
     for kappa in sol.kappas:
         spec = sol[kappa]
         counts = {br: len(spec.indices(br)) for br in ("negative", "bound", "positive", "spurious")}
         for i, eps in enumerate(spec.energies):
             br = spec.branches[i]
-            if not show_all and br in ("negative", "positive"):
+            if "dived" in spec.flags[i]:
+                dived.append(spec.labels[i])
+            elif not show_all and br in ("negative", "positive"):
                 continue
-            row = f"{kappa:>5}  {br:<8}  {spec.labels[i] or '-':<7}  {eps:>22.15g}  {eps * constants.HARTREE_EV:>22.15g}"
+            est = spec.error_estimate[i] if spec.error_estimate is not None else float("nan")
+            est = f"{est:.1e}" if np.isfinite(est) else "-"
+            row = (f"{kappa:>5}  {br:<8}  {spec.labels[i] or '-':<7}  {eps:>22.15g}  {eps * constants.HARTREE_EV:>22.15g}"
+                   f"  {est:>10}")
             if point:
                 err = f"{abs(eps / sol.exact(kappa, spec.n[i]) - 1):.2e}" if spec.n[i] is not None else "-"
                 row += f"  {err:>10}"
@@ -159,6 +169,13 @@ def levels_table(sol, show_all: bool = False) -> str:
             + ("" if show_all else "  (--all lists the continua)")
         )
     lines.append("")
+    from .confidence import CONFIDENCE_THRESHOLD
+    lines.append(f"est. error: relative error estimated from the basis itself (a reduced basis and the cavity wall); "
+                 f"a level above {CONFIDENCE_THRESHOLD:.0e} is flagged unconverged or cavity-limited.")
+    lines.append("A row is plainly trustworthy only when its branch is bound and it carries no flag.")
+    for label in dived:
+        lines.append(f"dived: {label} lies below -2 m c^2, in the negative continuum (the charge exceeds its "
+                     f"critical value); the levels above keep their own n.")
     lines.append("Levels hold for the stated nuclear model without QED; validate before use in publications.")
     return "\n".join(lines)
 
@@ -202,6 +219,8 @@ def _cmd_audit(args) -> int:
         print(audit_table(result))
         if args.report is not None:
             print(f"report written to {args.report}")
+    if args.strict and result.verdict == "fail":
+        return EXIT_FAILED_VERDICT
     return 0
 
 
@@ -280,6 +299,8 @@ def build_parser() -> argparse.ArgumentParser:
     au.add_argument("--json", action="store_true", help="print the audit JSON document")
     au.add_argument("--report", metavar="DIR", help="write audit.json, spectrum.png and convergence.png into DIR")
     au.add_argument("--force", action="store_true", help="replace an existing report directory")
+    au.add_argument("--strict", action="store_true",
+                    help=f"exit with status {EXIT_FAILED_VERDICT} when the verdict is fail (default: 0 after any verdict)")
     au.set_defaults(func=_cmd_audit)
     sc = sub.add_parser("scan", help="convergence scan over basis and ion settings (resumable, parallel)",
                         description="Run or resume a convergence scan plan; results and analysis go to --out.")

@@ -36,6 +36,12 @@ overstate the true error (docs/spectrum.md, calibration table), so a plainly bou
 within about 1e-10 of the exact level of the stated model."""
 
 
+ORIGIN_FACTOR = 4.0
+"""For a point nucleus the reduced basis also starts its knots this much further out, so that
+an error from too coarse a grid at the origin (P ~ r^gamma, gamma small at high Z) shows in the
+estimate."""
+
+
 def reduction(size: int) -> int:
     """Functions dropped for the reduced basis: a tenth of the size, at least 4."""
     return max(4, size // 10)
@@ -46,7 +52,7 @@ def reduced_config(config):
 
     B-splines: ``size`` lowered by :func:`reduction` (same knot rule, r_min, r_max, order);
     explicit breakpoints: every fifth interior breakpoint removed.  Gaussians: even-tempered
-    sets keep their range with fewer exponents; explicit exponents lose every fifth one.
+    sets keep their range with a twentieth fewer exponents (at least 2); explicit exponents lose every fifth one.
     """
     b = config.basis
     if b.family == "bspline":
@@ -64,16 +70,21 @@ def reduced_config(config):
         size = b.size - reduction(b.size)
         if size < b.order + 4:
             return None
-        return replace(config, basis=replace(b, size=size))
+        r_min = b.r_min
+        if config.ion.nucleus == "point" and float(config.ion.Z) > 0:
+            r_min = min(b.r_min * ORIGIN_FACTOR, b.r_max / 1e3)  # a point nucleus: r^gamma needs the first knot
+        return replace(config, basis=replace(b, size=size, r_min=r_min))
     if b.exponents is not None:
         ex = [x for j, x in enumerate(b.exponents) if j % 5 != 2]
         if len(ex) < 4 or len(ex) == len(b.exponents):
             return None
         return replace(config, basis=replace(b, exponents=tuple(ex), size=len(ex)))
-    size = b.size - max(3, b.size // 10)
-    if size < 4:
+    if b.size < 6:
         return None
-    return replace(config, basis=replace(b, size=size))
+    ratio = (b.exponent_max / b.exponent_min) ** (1.0 / (b.size - 1))
+    # the set without its most diffuse member (and one interior step): what the diffuse end holds shows
+    size = b.size - 2
+    return replace(config, basis=replace(b, size=size, exponent_min=b.exponent_min * ratio))
 
 
 def cavity_estimate(energies: np.ndarray, P: np.ndarray, r: np.ndarray, w: np.ndarray, V: np.ndarray,

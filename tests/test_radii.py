@@ -19,7 +19,7 @@ from relbasis.constants import HARTREE_EV
 from relbasis.errors import InputError
 from relbasis.nucleus import FORMULA_SOURCE, NO_NUCLEUS_SOURCE, NO_RADIUS_SOURCE, USER_SOURCE, make_nucleus
 
-SMALL = {"size": 30}
+SMALL = {"size": 60}
 ONE = {"kappas": [-1]}
 
 
