@@ -2,7 +2,8 @@
 
 The Python API mirrors the command line: ``relbasis.solve(config)`` returns the sorted spectra
 of every requested symmetry kappa; ``relbasis.load_config(path)`` reads and validates a TOML
-config.  Levels are computed for the stated model (nuclear charge distribution, no QED) and
+config; ``relbasis.critical_charge(nucleus, mass_number, n, kappa)`` finds the charge at which
+a level reaches the negative continuum.  Levels are computed for the stated model (nuclear charge distribution, no QED) and
 must be validated before use in publications or safety-related work.
 """
 
@@ -21,6 +22,8 @@ from .config import Config, BasisSpec, IonSpec, SolveSpec, from_dict as config_f
 from .errors import InputError  # noqa: E402
 from .solver import Solution, solve  # noqa: E402
 from .export import export, load  # noqa: E402
+from .critical import CriticalCharge, critical_charge  # noqa: E402
 
 __all__ = ["__version__", "solve", "Solution", "Config", "IonSpec", "BasisSpec", "SolveSpec",
-           "load_config", "config_from_dict", "InputError", "export", "load"]
+           "load_config", "config_from_dict", "InputError", "export", "load",
+           "critical_charge", "CriticalCharge"]

@@ -1,6 +1,7 @@
 """Command line: a thin shell over the Python API.
 
     relbasis levels [CONFIG.toml] [--z Z] [--nucleus MODEL] [--size N] ... [--json] [--all]
+    relbasis critical [--nucleus MODEL] [--a-per-z X | --a A] [--n N] [--kappa K] [--json]
 
 Every error a user can fix is printed as one line on stderr with exit status 2.
 """
@@ -9,6 +10,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import sys
 
 import numpy as np
@@ -272,6 +274,46 @@ def _cmd_levels(args) -> int:
     return 0
 
 
+# ----------------------------------------------------------------------------- critical
+
+
+def critical_table(res) -> str:
+    """The readable table of `relbasis critical`."""
+    digits = max(0, -math.floor(math.log10(res.uncertainty)) + 1) if res.uncertainty > 0 else 12
+    b, cb = res.basis, res.check_basis
+    return "\n".join([
+        f"relbasis {__version__} critical charge of {res.label} (n = {res.n}, kappa = {res.kappa:+d}): "
+        f"{res.nucleus} nucleus, one electron",
+        f"mass rule: {res.mass_rule}",
+        f"radius: {res.radius_rule}; at Z_cr A = {res.A:.6g}, R_rms = {res.rms_radius_fm:.6f} fm",
+        f"threshold: eps = -2c^2 = {res.threshold_hartree:.10g} hartree (E = -mc^2)",
+        "",
+        f"  Z_cr = {res.Z:.{digits}f} +- {res.uncertainty:.1e}",
+        f"  d eps/dZ at Z_cr = {res.slope:.6g} hartree per unit charge (along the mass rule)",
+        "",
+        f"basis: bspline, {b['size']} splines of order {b['order']}, r_max = {b['r_max']:.4g} bohr, "
+        f"balance = {b['balance']}; check: {cb['size']} splines, r_max = {cb['r_max']:.4g} bohr "
+        f"(Z_cr = {res.Z_check:.{digits}f})",
+        f"method: {res.method}",
+        f"{res.evaluations} solves in {res.seconds:.1f} s; constants CODATA {constants.CODATA}",
+        "",
+        f"Holds for the stated model only: {res.caveat}; validate before use in publications.",
+    ])
+
+
+def _cmd_critical(args) -> int:
+    from .critical import critical_charge, per_z_rule
+
+    if args.a is not None and args.a_per_z is not None:
+        raise InputError("--a and --a-per-z: give one mass rule, a fixed A or A = (A/Z) x Z")
+    rule = per_z_rule(args.a_per_z) if args.a_per_z is not None else None
+    basis = {k: v for k, v in {"size": args.size, "r_max": args.r_max}.items() if v is not None}
+    progress = not args.quiet and not args.json and sys.stderr.isatty()
+    res = critical_charge(args.nucleus, args.a, args.n, args.kappa, basis=basis, progress=progress, rule=rule)
+    print(json.dumps(res.to_dict(), indent=1) if args.json else critical_table(res))
+    return 0
+
+
 # ----------------------------------------------------------------------------- main
 
 
@@ -320,6 +362,19 @@ def build_parser() -> argparse.ArgumentParser:
                     help="store R^K(AB, CD) for these bound states, e.g. 0:1s1/2,1s1/2,1s1/2,1s1/2 (repeatable)")
     ex.add_argument("--force", action="store_true", help="replace an existing file")
     ex.set_defaults(func=_cmd_export)
+    cr = sub.add_parser("critical", help="critical charge: the Z at which a level reaches eps = -2c^2",
+                        description="Critical charge of a level of a one-electron ion with a finite nucleus "
+                                    "(docs/critical.md).")
+    cr.add_argument("--nucleus", default="fermi", help="sphere | gauss | fermi (default fermi)")
+    cr.add_argument("--a-per-z", type=float, metavar="X", help="mass rule A = X Z (default 2.5)")
+    cr.add_argument("--a", type=float, metavar="A", help="fixed mass number instead of a rule")
+    cr.add_argument("--n", type=int, default=1, help="principal number (default 1)")
+    cr.add_argument("--kappa", type=int, default=-1, help="symmetry (default -1: s1/2)")
+    cr.add_argument("--size", type=int, help="B-splines of the primary basis (default 90)")
+    cr.add_argument("--r-max", type=float, metavar="BOHR", help="cavity radius of the primary basis (default 150/Z)")
+    cr.add_argument("--json", action="store_true", help="print the JSON document")
+    cr.add_argument("--quiet", action="store_true", help="no progress bar")
+    cr.set_defaults(func=_cmd_critical)
     return p
 
 

@@ -76,13 +76,28 @@ _PANEL_GROWTH = 0.25
 _FERMI_CUT = 60.0
 
 
+RADIUS_RULE = "R_rms = 0.836 A^(1/3) + 0.570 fm"
+"""The default radius formula in words (printed by outputs that apply it)."""
+
+
 def default_rms_radius_fm(A: int) -> float:
     """Default rms charge radius (fm) for mass number A: R_rms = 0.836 A^(1/3) + 0.570.
 
     Source: W. R. Johnson, G. Soff, At. Data Nucl. Data Tables 33, 405 (1985) (from memory);
     the fit was made for A > 9, lighter nuclei get an extrapolation.
     """
-    return 0.836 * _check_A(A) ** (1.0 / 3.0) + 0.570
+    return rms_radius_of_mass_fm(_check_A(A))
+
+
+def rms_radius_of_mass_fm(A: float) -> float:
+    """The formula of :func:`default_rms_radius_fm` for any real A > 0 (no integer check).
+
+    For mass numbers that follow a smooth rule of a real-valued Z, such as A = 2.5 Z in the
+    critical-charge search (:mod:`relbasis.critical`), where A is generally not an integer.
+    """
+    if isinstance(A, bool) or not isinstance(A, numbers.Real) or not (math.isfinite(A) and A > 0):
+        raise InputError(f"A = {A!r} must be a finite number > 0 (mass number)")
+    return 0.836 * A ** (1.0 / 3.0) + 0.570
 
 
 # --------------------------------------------------------------------------- validation

@@ -40,6 +40,9 @@ Method (a Pruefer-angle form of shooting, common practice for Sturm-Liouville-ty
   ``lambda = sqrt(-eps (2c^2 + eps))/c``, ``Q/P = -sqrt(-eps/(2c^2 + eps))``.
 * A kink of V (the edge of a uniform sphere) is passed as ``r_break``; every integration is
   split there so that the high-order stepper never steps across it.
+* At the threshold eps = -2c^2 (:func:`threshold_charge`, the critical charge) the energy
+  is fixed and the charge is the unknown; the tail there decays like exp(-sqrt(8 Z r)) (see
+  the section "threshold charge" below).
 """
 
 from __future__ import annotations
@@ -52,7 +55,7 @@ from scipy.integrate import solve_ivp
 
 from relbasis.errors import InputError, PhysicsRangeError
 
-__all__ = ["dirac_level", "dirac_orbital", "coulomb_level"]
+__all__ = ["dirac_level", "dirac_orbital", "coulomb_level", "threshold_mismatch", "threshold_charge"]
 
 @dataclass(frozen=True)
 class _Setup:
@@ -400,3 +403,94 @@ def dirac_orbital(V, kappa: int, n: int, eps: float, *, c: float, Z: float, r_br
     P[outer] = rho_inf * math.cos(phi_inf - st.nodes * math.pi) * np.exp(-lam * (r[outer] - st.r_inf))
     Q[outer] = rho_inf * math.sin(phi_inf - st.nodes * math.pi) / st.scale * np.exp(-lam * (r[outer] - st.r_inf))
     return r, P, Q
+
+
+# --------------------------------------------------------------------------- threshold charge
+#
+# At the lower threshold E = -mc^2 (eps = -2c^2) the equations read
+#     P' = -kappa/r P - V/c Q,      Q' = kappa/r Q + (2c^2 + V)/c P.
+# Far out (V = -Z/r, 2c^2 >> Z/r) they give P' ~ (Z/(c r)) Q and Q' ~ 2c P, so
+# P'' ~ (2Z/r) P, whose WKB solutions are exp(+-sqrt(8 Z r)) (exact solutions:
+# sqrt(r) times modified Bessel functions of sqrt(8 Z r)); the bound one decays like
+# exp(-sqrt(8 Z r)), with Q/P ~ -c sqrt(2 r/Z) (derived from the two equations above), no
+# longer small.  The electron is classically allowed only where -V > 2c^2, i.e. inside
+# r = Z/(2c^2) for a Coulomb tail.  The critical charge is the Z at which a solution with
+# n - l - 1 nodes of P and this decaying tail exists at eps = -2c^2: the same Pruefer-angle
+# matching as above, with the energy fixed and Z as the unknown.
+
+
+def _angle_rhs(V, kappa: int, c: float, S: float, eps: float):
+    """d phi/dx of the Pruefer angle alone (see the module docstring), x = ln r."""
+
+    def rhs(x, y):
+        r = math.exp(x)
+        w = eps - _v_at(V, r)
+        a = r * S * w / c
+        b = r * (w + 2.0 * c * c) / (c * S)
+        cs, sn = math.cos(y[0]), math.sin(y[0])
+        return [-a * cs * cs + 2.0 * kappa * sn * cs - b * sn * sn]
+
+    return rhs
+
+
+def _local_ratio(V, kappa: int, c: float, eps: float, r: float) -> float:
+    """Q/P of the decaying solution at r from the local fixed point of the angle equation (S = 1)."""
+    w = eps - _v_at(V, r)
+    a, b = r * w / c, r * (w + 2.0 * c * c) / c
+    if not (a < 0.0 < b):
+        raise InputError(f"r = {r:.3g} bohr is not in the classically forbidden region at eps = {eps:.6g}; "
+                         "use a larger matching radius")
+    return a / (kappa + math.sqrt(kappa * kappa - a * b)) if kappa > 0 else (kappa - math.sqrt(kappa * kappa - a * b)) / b
+
+
+def threshold_mismatch(V, kappa: int, n: int, *, c: float, Z: float, r_break: float | None = None,
+                       rtol: float = 3e-14, r_match: float | None = None, decay: float = 40.0) -> float:
+    """F = phi_out(r_m) - phi_in(r_m) + N pi at eps = -2c^2 for the potential V (charge Z).
+
+    F > 0 while the level (n, kappa) lies above the threshold and F < 0 once it has dived;
+    F falls strictly with the depth of the potential (d(dphi/dx)/d(-V) < 0 on both sides).
+    ``r_match`` defaults to Z/c^2, twice the Coulomb turning point Z/(2c^2) (at least twice
+    ``r_break``); the inward start r_inf satisfies sqrt(8Z)(sqrt(r_inf) - sqrt(r_m)) =
+    ``decay``, i.e. the tail exp(-sqrt(8 Z r)) has fallen by e^-decay from r_m to r_inf, and
+    the start is the local fixed point of the angle equation there.
+    """
+    _check_state(kappa, n, c, Z)
+    eps = -2.0 * c * c
+    nodes = n - _orbital_l(kappa) - 1
+    if r_match is None:
+        r_match = max(Z / (c * c), 2.0 * r_break if r_break else 0.0)
+    r_inf = (math.sqrt(r_match) + decay / math.sqrt(8.0 * Z)) ** 2
+    r0 = 1e-9 * min(1.0 / Z, r_break if r_break else math.inf)
+    origin, zeta, v0 = _origin(V, r0)
+    if origin != "regular":
+        raise PhysicsRangeError("a Coulomb-singular potential has no threshold solution here; use a finite nucleus")
+    S = 1.0 / abs(_local_ratio(V, kappa, c, eps, r_match))  # P and S Q weigh alike at r_m
+    st = _Setup(int(kappa), nodes, float(c), S, r0, float(r_match), r_inf, r_break, origin, zeta, v0)
+    atol = [rtol * 1e-3]
+    fun = _angle_rhs(V, int(kappa), float(c), S, eps)
+    phi0 = math.atan(S * _start_ratio(st, eps))
+    out, _ = _march(fun, _knots(r0, r_match, r_break), [phi0], rtol, atol)
+    phi_inf = math.atan(S * _local_ratio(V, kappa, c, eps, r_inf))
+    inn, _ = _march(fun, _knots(r_inf, r_match, r_break), [phi_inf], rtol, atol)
+    return out[0] - inn[0] + nodes * math.pi
+
+
+def threshold_charge(potential_of, kappa: int, n: int, *, c: float, bracket: tuple[float, float],
+                     r_break_of=None, xtol: float = 1e-12, **kw) -> float:
+    """The charge Z at which the level (n, kappa) reaches eps = -2c^2 (a root of threshold_mismatch).
+
+    ``potential_of(Z)`` returns the potential V (a callable of r) of charge Z, with its nuclear
+    size following whatever rule the caller chose; ``r_break_of(Z)`` the kink radius (sphere
+    edge) or None.  ``bracket`` must hold the root: F > 0 at its lower and F < 0 at its upper
+    end.  The root is found by Brent's method (scipy.optimize.brentq).
+    """
+    from scipy.optimize import brentq
+
+    def F(Z):
+        rb = r_break_of(Z) if r_break_of else None
+        return threshold_mismatch(potential_of(Z), kappa, n, c=c, Z=Z, r_break=rb, **kw)
+
+    lo, hi = bracket
+    if not (F(lo) > 0.0 > F(hi)):
+        raise InputError(f"bracket={bracket!r} does not hold the threshold charge of n={n}, kappa={kappa}")
+    return brentq(F, lo, hi, xtol=xtol, rtol=4 * np.finfo(float).eps, maxiter=200)
