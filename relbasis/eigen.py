@@ -8,26 +8,29 @@ Four steps, each for a reason measured on the B-spline Dirac matrices:
    carry an absolute error of up to machine epsilon times the largest |root|, which with knots
    close to the origin is 1e9..1e12 hartree at c = 1/alpha, and grows with c (the largest roots
    go as c/r_min and -2c^2): 1e13 at c = 1e5, 1e14 at c = 1e6, where it exceeds the spacing of
-   the bound levels.
-3. *Shift and invert* (:func:`shift_invert`).  The roots near the bound-state window are found
-   again from the full eigendecomposition of M = L^T (H - sigma S)^(-1) L, S = L L^T, whose
-   eigenvalues are mu = 1/(eps - sigma): with sigma just below the lowest bound root, eigh's
-   error, machine epsilon times max |mu|, gives eps to about machine epsilon times
-   (eps - sigma)^2 / min |eps - sigma|, i.e. to 1e-16..1e-15 of the bound levels whatever c.
-   The roots far from sigma (both continua at large |eps|) keep the values of step 2, which
-   are better there (common practice of shift-and-invert spectral transformations, e.g.
-   B. N. Parlett, *The Symmetric Eigenvalue Problem*, SIAM 1998, ch. 15, from memory).
+   the bound levels.  Its vectors are better for a root apart from the others, so every root
+   is replaced by the Rayleigh quotient of its vector, with an error estimate (:func:`_rayleigh`).
+3. *Shift and invert* (:func:`shift_invert`; the solver calls it only where a root has lost
+   digits and is too close to its neighbours for step 4, i.e. at large c).  The roots near the
+   bound-state window are found again from the full eigendecomposition of
+   M = L^T (H - sigma S)^(-1) L, S = L L^T, whose eigenvalues are mu = 1/(eps - sigma): with
+   sigma below the lowest bound root, eigh's error, machine epsilon times max |mu|, gives eps
+   to about machine epsilon times (eps - sigma)^2 / min |eps - sigma|, i.e. to 1e-16..1e-15 of
+   the bound levels whatever c.  The roots far from sigma (both continua at large |eps|) keep
+   the values of step 2, which are better there (common practice of shift-and-invert spectral
+   transformations, e.g. B. N. Parlett, *The Symmetric Eigenvalue Problem*, SIAM 1998, from memory).
 4. *Refinement* of chosen roots by shifted inverse iteration,
-   ``(H - sigma S) x_{k+1} = S x_k`` with sigma the root from step 3, followed by the Rayleigh
+   ``(H - sigma S) x_{k+1} = S x_k`` with sigma the current root, followed by the Rayleigh
    quotient eps = x^T H x / x^T S x.  Each step shrinks the error of the vector by the ratio of
-   |eps - sigma| to the distance to the next root, so one step suffices after step 3; the
-   Rayleigh quotient is then accurate to about machine epsilon times |x|^T |H| |x|, the scale
-   of the state (B. N. Parlett, op. cit., ch. 4; common practice).
+   |eps - sigma| to the distance to the next root, so one step suffices once sigma is close
+   (B. N. Parlett, op. cit., ch. 4; common practice).
 
-Every :class:`Eigensystem` carries ``error``, an estimate of the rounding error of each root
-(hartree): machine epsilon times max |root| after step 2, times (eps - sigma)^2 max |mu| for the
-roots replaced in step 3, times |x|^T |H| |x| for the roots refined in step 4.  It says nothing
-about the basis-truncation error; the solver flags the roots whose estimate is large.
+Every :class:`Eigensystem` carries ``error``, an estimate of the error of each root (hartree)
+from rounding and from the eigensolver: the Kato–Temple bound |r|^2/gap of the residual r
+(or |r| where the root is not separated) plus the rounding of the Rayleigh quotient after steps
+2 and 4, EPS max|mu| (eps - sigma)^2 for the roots replaced in step 3.  It says nothing about
+the basis-truncation error; the solver flags the roots whose estimate is large
+(:mod:`relbasis.precision`).
 """
 
 from __future__ import annotations
