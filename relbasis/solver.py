@@ -23,7 +23,7 @@ from .eigen import DEFAULT_THRESHOLD, Eigensystem, refine, shift_invert, solve a
 from .gaussian import even_tempered
 from .errors import InputError
 from .nucleus import Nucleus
-from .precision import EDGE_MARGIN, isolated, lost, near_edge, precision_flags, settle_edge, with_flags
+from .precision import EDGE_MARGIN, POLISH_SHARE, isolated, lost, near_edge, precision_flags, settle_edge, with_flags
 from .spectrum import Spectrum, classify, duplicate_roots, examined
 
 
@@ -226,7 +226,7 @@ def _roots(H, S, system: Eigensystem, c: float, sample, w, order=None) -> tuple[
         system, moved = settle_edge(system, floor, small, edge)
     # never polish a root eigh cannot place apart from its neighbours (at the edge): inverse
     # iteration could turn it into one of them
-    polish = examined(system.energies, c) | (lost(system) & isolated(system))
+    polish = examined(system.energies, c) | (lost(system, POLISH_SHARE) & isolated(system))
     polish[near_edge(system, floor)] = False
     system = refine(system, H, S, polish, order)
     if moved.any():  # refine re-sorts: find the moved roots again (they sit alone just below the edge)
