@@ -330,31 +330,35 @@ def nucleus_of(ion: IonSpec) -> Nucleus:
     return make_nucleus(ion.Z, default_nucleus(ion), ion.A, ion.rms_radius_fm, ion.radius)
 
 
-def resolve(config: Config) -> tuple[Config, Nucleus]:
+def resolve(config: Config, c: float = C) -> tuple[Config, Nucleus]:
     """The config with every ion-dependent default filled in, and the nucleus it describes.
 
+    ``c`` is the speed of light the solve will use (1/alpha unless a check of the
+    nonrelativistic limit replaces it); every default that depends on Z alpha uses Z/c.
     Defaults (measured with the test-suite's checks against the exact Dirac–Coulomb levels):
     r_max = 250/Z (n <= 7 converged to 1e-11, DEFAULT_CAVITY); r_scale = 20/Z (capped at r_max/2);
-    r_min = 10^(-6 - 5(1 - gamma))/Z for a point nucleus, gamma = sqrt(1 - (Z alpha)^2), since the
-    r^gamma behaviour at the origin needs knots ever closer in as gamma falls (Z = 118: 3e-9/Z);
-    r_min = R/10 for a finite nucleus of edge radius R, where the orbitals are analytic at 0;
-    quadrature = order + 4 points per knot interval.
+    r_min = 10^(-6 - 5(1 - gamma))/Z for a point nucleus, gamma = sqrt(1 - (Z/c)^2), since the
+    r^gamma behaviour at the origin needs knots ever closer in as gamma falls (Z = 118: 3e-9/Z;
+    c -> infinity: 1e-6/Z); r_min = R/10 for a finite nucleus of edge radius R, where the
+    orbitals are analytic at 0; quadrature = order + 4 points per knot interval.  r_max and
+    r_scale follow the nonrelativistic extent of the orbitals and do not depend on c.
     """
     nuc = nucleus_of(config.ion)
     Z = float(config.ion.Z)
     b = config.basis
-    if nuc.model == "point" and Z / C >= 1:
+    if nuc.model == "point" and Z / c >= 1:
+        what = "Z*alpha" if c == C else "Z/c"
         raise InputError(
-            f"Z = {Z:g} gives Z*alpha = {Z / C:.4f} >= 1: a point nucleus has no 1s solution; use a finite nucleus (ion.nucleus = 'fermi')"
+            f"Z = {Z:g} gives {what} = {Z / c:.4f} >= 1: a point nucleus has no 1s solution; use a finite nucleus (ion.nucleus = 'fermi')"
         )
-    if nuc.model == "point" and Z > POINT_Z_SAFE and b.family == "bspline":
-        warnings.warn(point_accuracy_warning(Z), AccuracyWarning, stacklevel=3)
+    if nuc.model == "point" and Z * C / c > POINT_Z_SAFE and b.family == "bspline":
+        warnings.warn(point_accuracy_warning(Z * C / c), AccuracyWarning, stacklevel=3)
     ion = replace(config.ion, Z=config.ion.Z, A=nuc.A, nucleus=nuc.model, rms_radius_fm=nuc.rms_radius_fm,
                   radius=None)  # the radius itself is filled in; where it came from: nuc.rms_radius_source
     if b.family == "gaussian":
         if Z == 0:
             raise InputError("ion.Z = 0 (a free particle) needs the B-spline family and basis.r_max (the cavity radius)")
-        return Config(ion, _resolve_gaussian(b, nuc), config.solve), nuc
+        return Config(ion, _resolve_gaussian(b, nuc, c), config.solve), nuc
     if isinstance(b.knots, tuple):
         # explicit breakpoints fix the basis: report it as it is (size, first knot, wall)
         quad = b.quadrature if b.quadrature is not None else b.order + 4
@@ -376,7 +380,7 @@ def resolve(config: Config) -> tuple[Config, Nucleus]:
     elif Z == 0:
         r_min = 1e-3 * r_max  # smooth spherical-Bessel functions: no structure near the origin
     elif nuc.model == "point":
-        gamma = math.sqrt(1.0 - (Z / C) ** 2)
+        gamma = math.sqrt(1.0 - (Z / c) ** 2)
         r_min = 10.0 ** (-6.0 - 5.0 * (1.0 - gamma)) / Z
     else:
         r_min = nuc.radius_bohr / 10.0
@@ -415,7 +419,7 @@ def point_accuracy_warning(Z: float) -> str:
             f"estimate threshold are flagged 'unconverged'; a finite nucleus (ion.nucleus = 'fermi') keeps 1e-10")
 
 
-def default_exponent_range(Z: float, nucleus: Nucleus, balance: str = "dkb") -> tuple[float, float]:
+def default_exponent_range(Z: float, nucleus: Nucleus, balance: str = "dkb", c: float = C) -> tuple[float, float]:
     """Even-tempered range for Gaussians (bohr^-2), chosen by the scans in docs/gaussian.md.
 
     zeta_max = min(1e6 Z^2, 3/R_rms^2): tight enough for the relativistic region near the
@@ -424,9 +428,12 @@ def default_exponent_range(Z: float, nucleus: Nucleus, balance: str = "dkb") -> 
     unbalanced set) get zeta_min = 10^(-3 - 2 (Z/92)^2) Z^2: for kappa > 0 every RKB small
     function D+G obeys int r^kappa D+G dr = 0, a constraint the exact small component does not
     obey and that only very diffuse functions can offset; at Z = 92 the 2p1/2 level stalls at
-    -2.5e-7 with zeta_min = 1e-3 Z^2 and reaches -3e-9 with 1e-5 Z^2 (40 functions).
+    -2.5e-7 with zeta_min = 1e-3 Z^2 and reaches -3e-9 with 1e-5 Z^2 (40 functions).  The
+    constraint is a relativistic effect, so the exponent of the RKB factor goes with (Z/c)^2:
+    (Z/92)^2 at c = 1/alpha, nearly 0 for c >> 1/alpha (nonrelativistic-limit checks).
     """
-    factor = 1e-3 if balance == "dkb" else 10.0 ** (-3.0 - 2.0 * (Z / 92.0) ** 2)
+    zc = (Z / c) / (92.0 / C)  # = Z/92 at the physical c
+    factor = 1e-3 if balance == "dkb" else 10.0 ** (-3.0 - 2.0 * zc**2)
     zmin = factor * Z * Z
     zmax = GAUSS_ZMAX_CORE * Z * Z
     if nucleus.model != "point":
@@ -434,10 +441,10 @@ def default_exponent_range(Z: float, nucleus: Nucleus, balance: str = "dkb") -> 
     return zmin, zmax
 
 
-def _resolve_gaussian(b: BasisSpec, nuc: Nucleus) -> BasisSpec:
+def _resolve_gaussian(b: BasisSpec, nuc: Nucleus, c: float = C) -> BasisSpec:
     if b.exponents is not None:
         return replace(b, order=None, knots=None, size=len(b.exponents))
-    lo, hi = default_exponent_range(float(nuc.Z), nuc, b.balance)
+    lo, hi = default_exponent_range(float(nuc.Z), nuc, b.balance, c)
     zmin = b.exponent_min if b.exponent_min is not None else lo
     zmax = b.exponent_max if b.exponent_max is not None else hi
     if zmin >= zmax:

@@ -29,9 +29,10 @@ Brent's bracket valid.  The root found must be a smooth zero crossing (checked o
 
 Threshold tail.  At E = -mc^2 the radial equations far out give P'' = (2Z/r) P, so the bound
 solution decays like exp(-sqrt(8 Z r)) (derived from the equations; docs/critical.md): the
-default cavity r_max = 150/Z leaves exp(-34.6) at the wall; with 90 splines the Z_cr found
-with r_max = 40/Z, 60/Z and 150/Z agree to 1e-11, and 300/Z (the same splines spread
-thinner) to 1.4e-10 (measured, docs/critical.md), so the default cavity is kept.
+cavity r_max = 150/Z leaves exp(-34.6) at the wall; with 90 splines the Z_cr found with
+r_max = 40/Z, 60/Z and 150/Z agree to 1e-11, and 300/Z (the same splines spread thinner) to
+1.4e-10 (measured, docs/critical.md), so the package's default cavity (250/Z, 100 splines) is
+kept.
 
 Uncertainty.  The search is repeated with a larger basis (CHECK_SIZE_STEP more splines and
 CHECK_CAVITY_FACTOR times the cavity); the uncertainty is the difference plus the root
@@ -50,7 +51,7 @@ import numpy as np
 from scipy import optimize
 
 from . import __version__, constants
-from .config import DEFAULT_SIZE, MAX_SIZE
+from .config import DEFAULT_CAVITY, DEFAULT_SIZE, MAX_SIZE
 from .constants import C
 from .eigen import Eigensystem, refine
 from .errors import InputError, PhysicsRangeError
@@ -82,8 +83,8 @@ Z_SEARCH_LIMIT = 2000.0
 BASIS_KEYS = ("size", "order", "r_min", "r_max", "r_scale", "knots", "quadrature")
 """basis overrides accepted (B-spline family with dual kinetic balance only)."""
 
-DEFAULT_R_MAX_TIMES_Z = 150.0
-"""The package's default cavity r_max = 150/Z (relbasis.config.resolve)."""
+DEFAULT_R_MAX_TIMES_Z = DEFAULT_CAVITY
+"""The package's default cavity r_max = DEFAULT_CAVITY/Z (relbasis.config.resolve)."""
 
 CAVEAT = ("one electron, the stated nuclear charge distribution and radius rule, a fixed nucleus; "
           "no QED (vacuum polarisation, self-energy) and no electron screening")

@@ -61,7 +61,7 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=()) -> dict:
     cfg = sol.config
     top = {
         "format": FORMAT, "layout_version": LAYOUT_VERSION, "relbasis_version": __version__,
-        "codata": constants.CODATA, "alpha": constants.ALPHA, "c": constants.C,
+        "codata": constants.CODATA, "alpha": constants.ALPHA, "c": constants.C, "c_used": float(sol.c),
         "hartree_eV": constants.HARTREE_EV, "family": cfg.basis.family, "balance": cfg.basis.balance,
         "wall": cfg.basis.wall or "", "config_json": json.dumps(cfg.to_dict(), sort_keys=True),
         "ion_json": json.dumps(sol.nucleus.to_dict(), sort_keys=True),
@@ -206,7 +206,10 @@ class KappaBlock:
     _basis: object = field(repr=False, default=None)
 
     def radial(self, r) -> tuple[np.ndarray, np.ndarray]:
-        """P and Q of every root at radii r: two arrays of shape (len(r), number of roots)."""
+        """P and Q of every root at radii r: two arrays of shape (len(r), number of roots).
+
+        The small-component parts of the basis functions carry 1/2c; they are rebuilt with the
+        c the file records (:func:`used_c`)."""
         r = np.atleast_1d(np.asarray(r, dtype=float))
         P, Q = self._basis.components(r)[:2]
         return P @ self.coefficients, Q @ self.coefficients
@@ -226,6 +229,11 @@ class BasisFile:
     @property
     def kappas(self) -> tuple[int, ...]:
         return tuple(self.blocks)
+
+    @property
+    def c(self) -> float:
+        """Speed of light (atomic units) the stored roots were computed with (:func:`used_c`)."""
+        return used_c(self.attrs)
 
     def __getitem__(self, kappa: int) -> KappaBlock:
         return self.blocks[kappa]
@@ -297,11 +305,22 @@ def _load_npz(p: Path) -> BasisFile:
     return _assemble(attrs, data, p)
 
 
+def used_c(attrs: dict) -> float:
+    """The speed of light of the Hamiltonian the stored roots belong to.
+
+    ``c_used`` since it was added; files written before it (layout version 1 all the same) were
+    made with the physical c, which their ``c`` attribute (1/alpha) records.
+    """
+    if "c_used" in attrs:
+        return float(attrs["c_used"])
+    return float(attrs.get("c", constants.C))
+
+
 def _assemble(attrs: dict, data: dict, p: Path) -> BasisFile:
     try:
         config = json.loads(attrs["config_json"])
         ion = json.loads(attrs["ion_json"])
-        c = float(attrs["c"])
+        c = used_c(attrs)
         kappas = sorted({int(k.split("/")[0][len("kappa_"):]) for k in data if k.startswith("kappa_")},
                         key=lambda k: (abs(k), k > 0))
         blocks = {}

@@ -19,11 +19,12 @@ from .config import Config, from_dict, load, resolve
 from .constants import C
 from .dirac import DiracBasis
 from .dirac_gaussian import GaussianDiracBasis
-from .eigen import DEFAULT_THRESHOLD, Eigensystem, refine, solve as eigensolve
+from .eigen import DEFAULT_THRESHOLD, Eigensystem, refine, shift_invert, solve as eigensolve
 from .gaussian import even_tempered
 from .errors import InputError
 from .nucleus import Nucleus
 from .confidence import reduced_config
+from .precision import EDGE_MARGIN, POLISH_SHARE, isolated, lost, near_edge, precision_flags, settle_edge, with_flags
 from .spectrum import Spectrum, classify, duplicate_roots, examined, gap
 
 
@@ -101,7 +102,7 @@ class Solution:
         basis["dropped"] = {str(k): self.dropped.get(k, 0) for k in self.kappas}
         return {
             "relbasis": __version__,
-            "constants": constants.as_dict(),
+            "constants": constants.as_dict() | {"c_used": self.c},
             "ion": self.nucleus.to_dict(),
             "basis": basis,
             "states": self.states(),
@@ -202,16 +203,45 @@ def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np
     basis = DiracBasis.build(splines, kappa, balance, c, point_charge, wall)
     local = basis.local_channels(table)
     H, S = basis.matrices(table, V, local)
-    system = eigensolve(H, S, threshold)
-    system = refine(system, H, S, gap(system.energies, c), basis.band_order())
+    w = table.w.ravel()
+    system, moved = _roots(H, S, eigensolve(H, S, threshold), c, lambda v: local.evaluate(v, "PQ"), w,
+                           basis.band_order())
     window = examined(system.energies, c)
     coarse = coarse or splines.quadrature(1)
     P_all = basis.local_channels(coarse).dense("P", basis.size) @ system.vectors
     P, Q, DP = local.evaluate(system.vectors[:, window], "PQD")
     external = duplicate_roots(kappa, system.energies, partner)
-    spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, table.w.ravel(), V.ravel(), c, external,
+    spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, w, V.ravel(), c, external,
                     r=table.r.ravel(), wall=splines.r_max, reference=reference)
-    return basis, spec, system
+    return basis, with_flags(spec, precision_flags(system, moved)), system
+
+
+def _roots(H, S, system: Eigensystem, c: float, sample, w, order=None) -> tuple[Eigensystem, np.ndarray]:
+    """From eigh's roots to the final ones (:mod:`relbasis.eigen`, :mod:`relbasis.precision`):
+    shift and invert where a root above the edge has lost digits and is too close to others for
+    inverse iteration (at large c), the negative-continuum edge, inverse iteration of the
+    window and of the roots that have lost digits.  ``sample(vectors)`` gives
+    (P, Q) on the grid of weights w.  Returns the system and the mask of the roots moved
+    below the edge -2c^2.
+    """
+    floor = -2 * c * c
+    above = system.energies > floor + EDGE_MARGIN * system.error
+    if np.any(lost(system) & above & ~isolated(system)):
+        system = shift_invert(system, H, S, floor)  # eigh can even push bound states above 0
+    edge = near_edge(system, floor)
+    moved = np.zeros(system.energies.size, dtype=bool)
+    if edge.size:
+        P, Q = sample(system.vectors[:, edge])
+        small = (w @ Q**2) / np.maximum(w @ (P**2 + Q**2), np.finfo(float).tiny)
+        system, moved = settle_edge(system, floor, small, edge)
+    # never polish a root eigh cannot place apart from its neighbours (at the edge): inverse
+    # iteration could turn it into one of them
+    polish = gap(system.energies, c) | (lost(system, POLISH_SHARE) & isolated(system))
+    polish[near_edge(system, floor)] = False
+    system = refine(system, H, S, polish, order)
+    if moved.any():  # refine re-sorts: find the moved roots again (they sit alone just below the edge)
+        moved = system.energies == np.nextafter(floor, -np.inf)
+    return system, moved
 
 
 def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, balance: str, grid,
@@ -222,7 +252,7 @@ def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, ba
     r, w = grid
     H, S = basis.matrices(nucleus, grid)
     system = eigensolve(H, S, threshold if threshold is not None else DEFAULT_THRESHOLD)
-    system = refine(system, H, S, gap(system.energies, c))
+    system, moved = _roots(H, S, system, c, lambda v: tuple(m @ v for m in basis.components(r, ("P", "Q"))), w)
     window = examined(system.energies, c)
     Pm, Qm, Dm = basis.components(r, ("P", "Q", "DP"))
     P_all = Pm @ system.vectors
@@ -230,14 +260,16 @@ def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, ba
     external = duplicate_roots(kappa, system.energies, partner)
     spec = classify(kappa, system.energies, system.vectors, P_all, P_all[:, window], Qm @ v, Dm @ v, w,
                     nucleus.potential(r), c, external, r=r, wall=None, reference=reference)
-    return basis, spec, system
+    return basis, with_flags(spec, precision_flags(system, moved)), system
 
 
 def solve(config=None, *, c: float | None = None, **overrides) -> Solution:
     """Spectra of the requested symmetries (see :func:`as_config` for the ways to pass a config).
 
     ``c`` replaces the speed of light (atomic units) for checks of the nonrelativistic limit
-    (c -> infinity); every physical result uses the default c = 1/alpha.
+    (c -> infinity; supported 1/alpha <= c <= 1e6, bound levels measured right to 8e-14 up to
+    1e10, docs/nonrelativistic.md); every physical result uses the default c = 1/alpha.  The
+    defaults (:func:`relbasis.config.resolve`) and the export follow it.
 
     Every labelled level carries an error estimate (:mod:`relbasis.confidence`), made by
     solving a reduced basis first and comparing level by level.
@@ -245,7 +277,7 @@ def solve(config=None, *, c: float | None = None, **overrides) -> Solution:
     if c is not None and not (isinstance(c, (int, float)) and np.isfinite(c) and c > 1.0):
         raise InputError(f"c = {c!r}: the speed of light must be a number > 1 (default 1/alpha)")
     c = C if c is None else float(c)
-    cfg, nucleus = resolve(as_config(config, **overrides))
+    cfg, nucleus = resolve(as_config(config, **overrides), c)
     small = reduced_config(cfg)
     reference = None
     if small is not None:

@@ -104,8 +104,7 @@ def test_length_and_velocity_forms_agree_at_z50():
 @pytest.mark.parametrize("Z", [1, 2])
 def test_slater_f0_of_1s_in_the_nonrelativistic_limit(Z):
     """F^0(1s,1s) = 5Z/8 for hydrogenic 1s (textbook value), in the c -> infinity limit, to 1e-9.
-    c = 1e5 makes the relativistic corrections ~(Z/c)^2 < 1e-9 (larger c loses digits: the
-    negative-energy block of H scales as c^2)."""
+    c = 1e5 makes the relativistic corrections ~0.4 (Z/c)^2 < 1e-9 (larger c: tests/test_nonrelativistic.py)."""
     sol = relbasis.solve(ion={"Z": Z, "nucleus": "point"}, solve={"kappas": [-1]}, c=1e5)
     a = (-1, int(sol[-1].indices("bound")[0]))
     assert integrals.slater(sol, 0, a, a, a, a) == pytest.approx(5 * Z / 8, rel=1e-9)
