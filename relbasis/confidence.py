@@ -52,7 +52,7 @@ def reduced_config(config):
 
     B-splines: ``size`` lowered by :func:`reduction` (same knot rule, r_min, r_max, order);
     explicit breakpoints: every fifth interior breakpoint removed.  Gaussians: even-tempered
-    sets keep their range with a twentieth fewer exponents (at least 2); explicit exponents lose every fifth one.
+    sets lose their most diffuse exponent and two functions (a point nucleus also its tightest); explicit exponents lose every fifth one.
     """
     b = config.basis
     if b.family == "bspline":
@@ -82,9 +82,14 @@ def reduced_config(config):
     if b.size < 6:
         return None
     ratio = (b.exponent_max / b.exponent_min) ** (1.0 / (b.size - 1))
-    # the set without its most diffuse member (and one interior step): what the diffuse end holds shows
-    size = b.size - 2
-    return replace(config, basis=replace(b, size=size, exponent_min=b.exponent_min * ratio))
+    # the set without its most diffuse and its tightest member: what either end holds shows (the
+    # diffuse end for Rydberg levels and RKB kappa > 0, the tight end for the origin of a point nucleus)
+    # (two fewer functions over the remaining range, so that the spacing coarsens too); the tight
+    # end is cut only for a point nucleus, whose r^gamma origin no Gaussian set resolves
+    point = config.ion.nucleus == "point"
+    size = b.size - (3 if point else 2)
+    return replace(config, basis=replace(b, size=size, exponent_min=b.exponent_min * ratio,
+                                         exponent_max=b.exponent_max / ratio if point else b.exponent_max))
 
 
 def cavity_estimate(energies: np.ndarray, P: np.ndarray, r: np.ndarray, w: np.ndarray, V: np.ndarray,

@@ -1,4 +1,4 @@
-"""Run configuration: the TOML file (or mapping) of DESIGN.md, validated, with defaults resolved.
+"""Run configuration: the TOML file (or mapping) documented in docs/config.md, validated, with defaults resolved.
 
 ```toml
 [ion]

@@ -96,7 +96,7 @@ class Solution:
         return out
 
     def to_dict(self) -> dict:
-        """The JSON document of DESIGN.md."""
+        """The JSON document (docs/file-format.md describes the export; README the states contract)."""
         basis = self.config.to_dict()["basis"]
         basis["functions"] = {str(k): self.bases[k].size for k in self.kappas}
         basis["dropped"] = {str(k): self.dropped.get(k, 0) for k in self.kappas}

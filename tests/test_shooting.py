@@ -20,7 +20,7 @@ from shooting import coulomb_level, dirac_level, dirac_orbital
 C = 1.0 / fine_structure
 FM = 1.0 / 52917.7210544  # one femtometre in bohr
 R_RMS = 5.86 * FM
-R_SPHERE = math.sqrt(5.0 / 3.0) * R_RMS  # uniform sphere of that rms radius (elementary, SOURCES.md)
+R_SPHERE = math.sqrt(5.0 / 3.0) * R_RMS  # uniform sphere of that rms radius (elementary, from the definition of R_rms)
 
 STATES = [(1, -1), (2, -1), (2, 1), (2, -2), (3, -3)]  # (n, kappa): 1s, 2s, 2p1/2, 2p3/2, 3d5/2
 
@@ -128,7 +128,7 @@ def test_sphere_level_is_stable_under_numerical_settings(n, kappa, setting):
 
 @pytest.mark.parametrize("n", [1, 2])
 def test_hydrogen_finite_size_shift_matches_first_order_formula(n):
-    # Nonrelativistic first-order shift dE = (2/3) Z^4 <r^2>/n^3 (common practice; SOURCES.md:
+    # Nonrelativistic first-order shift dE = (2/3) Z^4 <r^2>/n^3 (common practice;
     # 0.06 % off at Z = 1).  The shift is 8e-9 hartree on 0.5: the shooting resolves eps to
     # ~1e-15 relative, i.e. the shift to ~1e-6 of itself.
     Z = 1
@@ -138,7 +138,7 @@ def test_hydrogen_finite_size_shift_matches_first_order_formula(n):
 
 
 def test_finite_size_shift_at_z10_is_within_a_few_percent_of_first_order():
-    # Same formula (common practice); SOURCES.md: relativistic terms grow like (Z alpha)^2 ln(ZR)
+    # Same formula (common practice); relativistic terms grow like (Z alpha)^2 ln(ZR)
     # and reach a few % by Z = 10.  Here "a few %" is taken as 5 %.
     Z = 10
     shift = dirac_level(sphere(Z), -1, 1, c=C, Z=Z, r_break=R_SPHERE) - dirac_coulomb_exact(Z, -1, 1)
