@@ -87,6 +87,8 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=()) -> dict:
         arrays[f"{g}/branches"] = np.array(spec.branches, dtype=object)
         arrays[f"{g}/labels"] = np.array([lab or "" for lab in spec.labels], dtype=object)
         arrays[f"{g}/flags"] = np.array([",".join(f) for f in spec.flags], dtype=object)
+        est = spec.error_estimate if spec.error_estimate is not None else np.full(spec.energies.size, np.nan)
+        arrays[f"{g}/error_estimate"] = np.where(np.isfinite(est), est, np.nan)
         if grid is None:
             P, Q = sol.sample(kappa, None, "PQ")
         else:
@@ -204,6 +206,7 @@ class KappaBlock:
     P: np.ndarray = field(repr=False)
     Q: np.ndarray = field(repr=False)
     _basis: object = field(repr=False, default=None)
+    error_estimate: np.ndarray | None = field(repr=False, default=None)  # relative; NaN where none (absent in older files)
 
     def radial(self, r) -> tuple[np.ndarray, np.ndarray]:
         """P and Q of every root at radii r: two arrays of shape (len(r), number of roots).
@@ -340,7 +343,8 @@ def _assemble(attrs: dict, data: dict, p: Path) -> BasisFile:
                 kappa, np.asarray(data[f"{g}/energies"]), tuple(str(b) for b in data[f"{g}/branches"]),
                 tuple(str(x) or None for x in data[f"{g}/labels"]), n,
                 tuple(tuple(x for x in str(s).split(",") if x) for s in data[f"{g}/flags"]),
-                np.asarray(data[f"{g}/coefficients"]), np.asarray(data[f"{g}/P"]), np.asarray(data[f"{g}/Q"]), basis)
+                np.asarray(data[f"{g}/coefficients"]), np.asarray(data[f"{g}/P"]), np.asarray(data[f"{g}/Q"]), basis,
+                np.asarray(data[f"{g}/error_estimate"], dtype=float) if f"{g}/error_estimate" in data else None)
     except (KeyError, ValueError, TypeError) as err:
         raise InputError(f"{str(p)!r} is incomplete or damaged: missing or bad entry {err}") from None
     ints = {k[len("integrals/"):]: v for k, v in data.items() if k.startswith("integrals/")}

@@ -4,7 +4,9 @@ import json
 
 import pytest
 
+import relbasis
 from relbasis.audit import audit, closure, sum_rule
+from relbasis.constants import C
 from relbasis.cli import main
 from conftest import solve_cached
 
@@ -128,3 +130,66 @@ def test_intruders_in_the_positive_continuum_are_reported():
     result = audited(ion={"Z": 0}, basis={"r_max": 0.01, "wall": "bag"}, solve={"kappas": [-1, 1]})
     check = result.check("continuum-outliers")
     assert check.status == "fail" and "kappa +1: eps = 1102" in check.detail
+
+
+# --- labels a practitioner can trust: audit verdicts and advice ------------------------------
+
+
+def test_audit_z118_point_nucleus_passes(capsys):
+    """Z = 118, point nucleus, default basis: every level good to 1e-10 (Bethe & Salpeter §14),
+    and the kinetic-balance figure with the Coulomb factor g stays finite (it diverged at
+    Z alpha = sqrt(3)/2 in the plain form)."""
+    assert main(["audit", "--z", "118", "--nucleus", "point", "--strict"]) == 0
+    out = capsys.readouterr().out
+    assert "verdict: pass" in out
+
+
+def test_exact_1s_passes_the_kinetic_balance_check_at_every_z():
+    """The figure ||Q - g D+P/2c|| / ||Q|| of the exact point-nucleus 1s (Bethe & Salpeter §14:
+    Q = -sqrt((1-gamma)/(1+gamma)) P, P ~ r^gamma e^(-Zr)) stays below the audit threshold up to Z = 136."""
+    from mpmath import mp, mpf, quad, sqrt, exp, inf
+
+    mp.dps = 30
+    for Z in (1, 92, 118, 125, 136):
+        g_ = sqrt(1 - (mpf(Z) / C) ** 2)
+        a = Z / (2 * mpf(C) ** 2)
+
+        def f(r, p):
+            P = r**g_ * exp(-Z * r)
+            Q = -sqrt((1 - g_) / (1 + g_)) * P
+            DP = ((g_ - 1) / r - Z) * P
+            g = r / (r + a)
+            return (Q - g * DP / (2 * C)) ** 2 if p else Q**2
+
+        fig = float(sqrt(quad(lambda r: f(r, 1), [0, a, 1 / mpf(Z), inf]) / quad(lambda r: f(r, 0), [0, 1 / mpf(Z), inf])))
+        assert fig < max(0.5, 3 * (Z / C) ** 2), (Z, fig)
+
+
+def test_audit_of_a_cavity_far_too_wide_fails_and_names_r_max(capsys):
+    assert main(["audit", "--z", "92", "--nucleus", "point", "--r-max", "1e6", "--strict"]) == 3
+    out = capsys.readouterr().out
+    assert "verdict: fail" in out
+    assert any(line.startswith("advice: lower r_max") for line in out.splitlines())
+
+
+def test_audit_of_a_small_cavity_advises_r_max_and_of_a_small_basis_advises_size(capsys):
+    small = audited(ion={"Z": 92, "nucleus": "point"}, basis={"r_max": 0.5})
+    assert small.verdict == "fail" and any(a.startswith("raise r_max") for a in small.advice)
+    coarse = audited(ion={"Z": 92, "nucleus": "point"}, basis={"size": 50})
+    assert coarse.verdict == "fail" and any(a.startswith("raise size") for a in coarse.advice)
+    assert not any("r_max" in a for a in coarse.advice)
+
+
+def test_audit_names_a_dived_level():
+    result = audited(ion={"Z": 170, "A": 430, "nucleus": "sphere"}, solve={"kappas": [-1, 1]})
+    assert result.check("dived-levels").status == "warn"
+    assert "1s1/2" in result.check("dived-levels").detail
+    assert any("1s1/2 has dived" in a for a in result.advice)
+
+
+def test_audit_uses_the_solution_speed_of_light():
+    """A solution made with c = 1e4 is audited with that c: no false kinetic-balance failure."""
+    sol = relbasis.solve(ion={"Z": 10, "nucleus": "point"}, solve={"kappas": [-1, 1, -2]}, c=1e4)
+    result = audit(sol)
+    assert result.check("kinetic-balance").status == "pass"
+    assert result.verdict == "pass", [(c.name, c.status) for c in result.checks if c.status != "pass"]

@@ -144,3 +144,15 @@ def test_explicit_knots_reported_as_built(capsys, tmp_path):
     assert basis["size"] == 11 and basis["r_max"] == 1.0 and basis["r_min"] == 0.5
     assert main(["levels", str(cfg)]) == 0
     assert "11 splines" in capsys.readouterr().out
+
+
+@pytest.mark.parametrize("suffix", [".h5", ".npz"])
+def test_export_keeps_labels_flags_and_estimates(tmp_path, suffix):
+    sol = solve_quiet(ion={"Z": 170, "A": 430, "nucleus": "sphere"}, basis={"size": 60}, solve={"kappas": [-1]})
+    path = relbasis.export(sol, tmp_path / f"z170{suffix}")
+    block = relbasis.load(path)[-1]
+    spec = sol[-1]
+    assert block.flags == spec.flags and block.n == spec.n and block.labels == spec.labels
+    np.testing.assert_array_equal(np.isnan(block.error_estimate), ~np.isfinite(spec.error_estimate))
+    ok = np.isfinite(spec.error_estimate)
+    np.testing.assert_array_equal(block.error_estimate[ok], spec.error_estimate[ok])
