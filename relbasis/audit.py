@@ -155,21 +155,22 @@ def per_state(sol: Solution, max_n: int) -> list[dict]:
 
 
 def balance_factor(sol: Solution) -> np.ndarray:
-    """g(r) = 2c^2 / (2c^2 - V_s(r)) on the solution's grid, V_s = -Z/r for a point nucleus (else g = 1).
+    """g(r) = 2c^2 / (2c^2 - V(r)) of the nucleus on the solution's grid (r / (r + Z/2c^2) for a
+    point nucleus; 1 where |V| << 2c^2).
 
-    The kinetic-balance figure compares Q with g D+P / 2c, the zero-energy relation of the
-    Coulomb problem near the nucleus, not with the plain D+P / 2c.  For the exact point-nucleus
-    1s, Q = -sqrt((1 - gamma)/(1 + gamma)) P and D+P = ((gamma - 1)/r - Z) P, so the plain
-    difference Q - D+P/2c carries the term (1 - gamma) P / (2 c r) ~ r^(gamma - 1), whose norm
-    integral int r^(2 gamma - 2) dr diverges once gamma <= 1/2, i.e. Z alpha >= sqrt(3)/2
-    (Z >= 118.7); the figure grew as 2.7 (Z = 116), 4.9 (Z = 118).  With g the singular parts
-    cancel at small r (g D+P/2c -> -(1 - gamma) r P / (Z r) ...), the difference stays of
-    order eps/2c^2 everywhere and the exact 1s passes at every Z < 137 (docs/audit.md).
+    The kinetic-balance figure compares Q with g D+P / 2c, the zero-energy relation of the radial
+    equation, not with the plain D+P / 2c.  For the exact point-nucleus 1s,
+    Q = -sqrt((1 - gamma)/(1 + gamma)) P and D+P = ((gamma - 1)/r - Z) P, so the plain difference
+    Q - D+P/2c carries the term (1 - gamma) P / (2 c r) ~ r^(gamma - 1), whose norm integral
+    int r^(2 gamma - 2) dr diverges once gamma <= 1/2, i.e. Z alpha >= sqrt(3)/2 (Z >= 118.7);
+    with g the singular parts cancel and the exact 1s passes at every Z < 137 (tested).  For a
+    finite nucleus V(0) = -1.5 Z/R exceeds 2c^2 from Z ~ 100 on, and the same factor keeps the
+    figure of physical states of order (Z alpha)^2 up to Z = 170 (docs/audit.md).
     """
     r = sol.grid[0]
-    if sol.nucleus.model != "point" or sol.nucleus.Z == 0:
-        return np.ones_like(r)
-    return r / (r + sol.nucleus.Z / (2 * sol.c * sol.c))
+    V = sol.nucleus.potential(r)
+    two_c2 = 2 * sol.c * sol.c
+    return two_c2 / (two_c2 - V)
 
 
 def continuum_outliers(sol: Solution, count: int = 20) -> list[tuple[int, float, float]]:
@@ -444,7 +445,7 @@ def audit(config=None, *, max_n: int = 5, target: float = 1e-8, **overrides) -> 
     kb = max((s["kinetic_balance_residual"] or 0.0) for s in focus) if focus else 0.0
     za2 = (sol.nucleus.Z / sol.c) ** 2
     checks.append(Check("kinetic-balance", _grade(kb, max(0.5, 3 * za2), 2.0), kb, max(0.5, 3 * za2),
-                        f"||Q - g D+P/2c|| / ||Q|| with g = 2c^2/(2c^2 - V_point) (1 for a finite nucleus), worst "
+                        f"||Q - g D+P/2c|| / ||Q|| with g = 2c^2/(2c^2 - V(r)), worst "
                         f"bound state; of order (Z alpha)^2 = {za2:.3g} for physical states"))
     mirror = _negative_mirror(sol)
     checks.append(Check("kinetic-balance-negative", _grade(mirror, 5.0, 100.0), mirror, 5.0,

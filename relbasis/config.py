@@ -10,7 +10,7 @@ radius = "formula"     # "formula" | "measured" (Angeli and Marinova 2013; witho
 
 [basis]
 family = "bspline"
-size = 90              # B-splines spanned by the knots, before boundary conditions
+size = 100             # B-splines spanned by the knots, before boundary conditions
 order = 10             # polynomial degree + 1
 r_min = 1e-6           # first non-zero knot (bohr)
 r_max = 40.0           # cavity radius (bohr)

@@ -279,7 +279,7 @@ def solve(config=None, *, c: float | None = None, **overrides) -> Solution:
     c = C if c is None else float(c)
     cfg, nucleus = resolve(as_config(config, **overrides), c)
     small = reduced_config(cfg)
-    reference = None
+    reference = {}  # no reduced basis can be made: no level can be confirmed (all unconverged)
     if small is not None:
         rough = _solve_resolved(small, nucleus, c, None)
         reference = {k: {n: float(e) for n, e, b in zip(s.n, s.energies, s.branches) if n is not None and b == "bound"}

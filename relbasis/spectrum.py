@@ -20,9 +20,15 @@ practice for screened and finite-nucleus potentials).  Flags, each with the figu
     P has fewer nodes than the next level of the series needs: the root repeats a lower level
     (marks it spurious).
 
-More nodes than n allows are ripples of a state the basis does not resolve (typically a high
-Rydberg level of a wide Gaussian set): the root stays ``bound`` and unflagged, and
-``Spectrum.nodes`` keeps the count for diagnostics.
+``nodes-disagree``
+    The node count of P and the order of the root within the symmetry give different n: the
+    root is labelled by its nodes (or not at all if that n is taken) and not claimed accurate.
+``unconverged`` / ``cavity-limited``
+    The estimated error of the level (:mod:`relbasis.confidence`) exceeds 1e-9.
+``precision-limited``
+    Rounding of the matrix problem (large c) exceeds 1e-9 (:mod:`relbasis.precision`).
+``dived``
+    A level below -2c^2 (charge above critical) that keeps the negative branch, its n and label.
 ``duplicate-level``
     The level coincides with a level of the partner symmetry -kappa whose n has no counterpart
     in kappa (kappa > 0 has no n = kappa state): it mirrors a state of the wrong symmetry
@@ -55,7 +61,8 @@ basis reach 4e-3; inner lobes of hydrogen-like states with n <= 10 peak above 5e
 SPURIOUS_FLAGS = ("kinetic-balance-residual", "duplicate-level", "node-count")
 """Flags that make a root of the gap spurious (a root no physical state explains).  Other
 flags (``nodes-disagree``, ``unconverged``, ``cavity-limited``, ``precision-limited``) leave
-the root in the bound branch but withdraw the claim of accuracy."""
+the root in the bound branch but withdraw the claim of accuracy; ``dived`` marks a level below
+-2c^2 that keeps the negative branch with its n and label."""
 DUPLICATE_TOLERANCE = 1e-6
 """Relative distance below which two levels of partner symmetries count as the same level."""
 
@@ -217,9 +224,10 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     examined roots) on the grid ``r`` with quadrature weights ``w`` and potential ``V``;
     ``vectors`` are the coefficients (basis x roots), returned with the sign fixed so that
     P > 0 near the origin.  ``external`` maps root indices to flags found outside this
-    symmetry (duplicate levels, lost precision).  ``wall`` is the cavity radius (None: no
+    symmetry (duplicate levels; lost precision is added afterwards, relbasis.precision).  ``wall`` is the cavity radius (None: no
     wall) and ``reference`` maps n to the level of a reduced basis; both feed the error
-    estimate of every labelled level (:mod:`relbasis.confidence`).
+    estimate of every labelled level (:mod:`relbasis.confidence`).  Levels are looked for
+    below -2c^2 (dived) only where the charge -r V(r) exceeds c somewhere (Z alpha > 1).
 
     n comes from the node count of P (n - l - 1 nodes) and is cross-checked against the order
     of the roots within the symmetry: a root whose node count disagrees with its place gets
@@ -263,7 +271,10 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
             candidates.append(i)
     lowest = min((int(nodes[i]) + l + 1 for i in candidates), default=None)
     dived = {}
-    if lowest is not None and lowest > l + 1 and np.any(window & ~gap) and r is not None:
+    # a level can dive only in a potential deeper than Z alpha = 1 allows a point charge (finite
+    # nuclei; the critical charges lie near 170): min V < -2c^2 alone is not enough
+    if (lowest is not None and lowest > l + 1 and np.any(window & ~gap) and r is not None
+            and np.min(r * V) < -c):
         below = window & ~gap
         dived = _dived(kappa, energies, np.flatnonzero(below), P[:, ~in_gap], Q[:, ~in_gap], r, w,
                        list(range(l + 1, lowest)))

@@ -156,3 +156,17 @@ def test_export_keeps_labels_flags_and_estimates(tmp_path, suffix):
     np.testing.assert_array_equal(np.isnan(block.error_estimate), ~np.isfinite(spec.error_estimate))
     ok = np.isfinite(spec.error_estimate)
     np.testing.assert_array_equal(block.error_estimate[ok], spec.error_estimate[ok])
+
+
+def test_a_basis_too_small_to_reduce_claims_nothing():
+    """Five Gaussians: no reduced set can be made, so no level is confirmed (1s is 18 % off)."""
+    sol = solve_quiet(ion={"Z": 1, "nucleus": "gauss"}, basis={"family": "gaussian", "size": 5}, solve={"kappas": [-1]})
+    spec = sol[-1]
+    assert not any(spec.trusted(i) for i in range(len(spec)))
+
+
+def test_no_dived_level_below_the_critical_charge():
+    """A point nucleus at Z = 92 in a cavity too wide for its f levels: nothing is reported as
+    dived (diving needs Z alpha > 1), whatever the continuum roots look like."""
+    sol = solve_quiet(ion={"Z": 92, "nucleus": "point"}, basis={"r_max": 100.0}, solve={"kappas": [-4, -1]})
+    assert not any("dived" in f for k in sol.kappas for f in sol[k].flags)
