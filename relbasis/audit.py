@@ -30,6 +30,7 @@ import scipy.linalg as sl
 from . import __version__
 from .analytic import orbital_l
 from .angular import dipole_partners, reduced_c
+from .config import DEFAULT_CAVITY
 from .solver import Solution, as_config, solve
 
 STATUSES = ("pass", "warn", "fail")
@@ -332,8 +333,6 @@ CONFIDENCE_FLAGS = ("unconverged", "cavity-limited", "nodes-disagree", "precisio
 def _confidence_check(sol: Solution, rows: list[dict], max_n: int, advice: list[str], target: float) -> Check:
     """Levels n <= max_n whose error estimate or node count withdraws the claim of accuracy,
     with advice that names the setting which fixes each kind (docs/audit.md)."""
-    from .confidence import CONFIDENCE_THRESHOLD
-
     b = sol.config.basis
     low = [s for s in rows if s["branch"] == "bound" and s["n"] is not None and s["n"] <= max_n]
     missing = [(k, n) for k in sol.kappas for n in range(orbital_l(k) + 1, max_n + 1)
@@ -381,8 +380,6 @@ def _spread(sol: Solution) -> bool:
 
 
 def _default_cavity(sol: Solution) -> float:
-    from .config import DEFAULT_CAVITY
-
     return DEFAULT_CAVITY / float(sol.nucleus.Z)
 
 

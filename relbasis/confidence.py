@@ -94,6 +94,23 @@ def reduced_config(config):
                                          exponent_max=b.exponent_max / ratio if point else b.exponent_max))
 
 
+def judge(eps: float, reference: float | None, cavity: float) -> tuple[float, list[str]]:
+    """The estimate of one level and the flags it earns.
+
+    ``reference`` is the level in the reduced basis (inf: the reduced basis lacks it; None: no
+    comparison asked for, as in the reduced solve itself); ``cavity`` the relative cavity shift.
+    """
+    flags = []
+    resolution = 0.0
+    if reference is not None:
+        resolution = abs(eps - reference) / abs(eps) if np.isfinite(reference) else np.inf
+        if not resolution <= CONFIDENCE_THRESHOLD:
+            flags.append("unconverged")
+    if not cavity <= CONFIDENCE_THRESHOLD:
+        flags.append("cavity-limited")
+    return max(resolution, cavity), flags
+
+
 def cavity_estimate(energies: np.ndarray, P: np.ndarray, r: np.ndarray, w: np.ndarray, V: np.ndarray,
                     kappa: int, wall: float, c: float) -> np.ndarray:
     """Relative shift of each level by the cavity wall at ``wall`` (see the module docstring).

@@ -44,6 +44,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .analytic import j_twice, orbital_l
+from .confidence import cavity_estimate, judge
 from .errors import InputError, MissingLevelError
 
 BRANCHES = ("negative", "bound", "positive", "spurious")
@@ -233,8 +234,6 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     of the roots within the symmetry: a root whose node count disagrees with its place gets
     the flag ``nodes-disagree`` (and no n at all if its node count repeats one already given).
     """
-    from .confidence import CONFIDENCE_THRESHOLD, cavity_estimate
-
     external = external or {}
     l = orbital_l(kappa)
     window = examined(energies, c)
@@ -304,16 +303,9 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
             continue
         used.add(n)
         ns[i], labels[i] = n, orbital_label(n, kappa)
-        resolution = np.nan
-        if reference is not None:
-            ref = reference.get(n)
-            resolution = abs(energies[i] - ref) / abs(energies[i]) if ref is not None else np.inf
-        estimate[i] = np.nanmax([resolution, cavity[i]]) if np.isfinite(cavity[i]) or np.isfinite(resolution) else np.inf
-        if reference is not None and not resolution <= CONFIDENCE_THRESHOLD:
-            why.append("unconverged")
-        if not cavity[i] <= CONFIDENCE_THRESHOLD:
-            why.append("cavity-limited")
-        flags[i] = tuple(dict.fromkeys(why))
+        estimate[i], verdict = judge(float(energies[i]), None if reference is None else reference.get(n, np.inf),
+                                     float(cavity[i]))
+        flags[i] = tuple(dict.fromkeys(why + verdict))
     return Spectrum(kappa, energies, vectors, tuple(branches), tuple(ns), tuple(labels), tuple(flags),
                     nodes, residual, estimate)
 
