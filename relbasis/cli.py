@@ -11,6 +11,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import sys
 
 import numpy as np
@@ -252,6 +253,9 @@ def _cmd_export(args) -> int:
         if not (0 < lo < hi) or count < 2:
             raise InputError(f"--grid {args.grid!r}: need 0 < R_MIN < R_MAX and COUNT >= 2")
         grid = np.geomspace(lo, hi, count)
+    from .export import check_target
+
+    check_target(args.out, args.force)  # before the solve: a refusal costs nothing
     sol = _solution(args)
     if grid is not None and sol.splines is not None and grid[-1] > sol.splines.r_max:
         raise InputError(f"--grid: R_MAX = {grid[-1]:g} lies beyond the cavity radius r_max = {sol.splines.r_max:g} bohr")
@@ -340,7 +344,8 @@ def build_parser() -> argparse.ArgumentParser:
     au.add_argument("--target", type=float, default=1e-8, help="relative accuracy wanted of the bound levels (default 1e-8)")
     au.add_argument("--json", action="store_true", help="print the audit JSON document")
     au.add_argument("--report", metavar="DIR", help="write audit.json, spectrum.png and convergence.png into DIR")
-    au.add_argument("--force", action="store_true", help="replace an existing report directory")
+    au.add_argument("--force", action="store_true", help="replace an earlier report in DIR (only the files "
+                    "relbasis wrote there; other files are never touched)")
     au.add_argument("--strict", action="store_true",
                     help=f"exit with status {EXIT_FAILED_VERDICT} when the verdict is fail (default: 0 after any verdict)")
     au.set_defaults(func=_cmd_audit)
@@ -360,7 +365,7 @@ def build_parser() -> argparse.ArgumentParser:
                     "(default: the quadrature points)")
     ex.add_argument("--slater", action="append", metavar="K:A,B,C,D",
                     help="store R^K(AB, CD) for these bound states, e.g. 0:1s1/2,1s1/2,1s1/2,1s1/2 (repeatable)")
-    ex.add_argument("--force", action="store_true", help="replace an existing file")
+    ex.add_argument("--force", action="store_true", help="replace an existing file that relbasis wrote")
     ex.set_defaults(func=_cmd_export)
     cr = sub.add_parser("critical", help="critical charge: the Z at which a level reaches eps = -2c^2",
                         description="Critical charge of a level of a one-electron ion with a finite nucleus "
@@ -391,13 +396,25 @@ def _join_negative_lists(argv: list[str]) -> list[str]:
     return out
 
 
+def _silence_stdout() -> None:
+    """Point stdout at /dev/null, so that the interpreter's last flush of what could not be
+    written (a closed pipe, a full disk) raises nothing more at exit (common practice)."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):  # stdout without a file descriptor (e.g. captured)
+        pass
+
+
 def main(argv=None) -> int:
     parser = build_parser()
     try:
         args = parser.parse_args(_join_negative_lists(list(sys.argv[1:] if argv is None else argv)))
         if getattr(args, "func", None) is None:
             raise InputError(f"relbasis: give a command, e.g. '{_EXAMPLE}' (see 'relbasis --help')")
-        return args.func(args)
+        status = args.func(args)
+        sys.stdout.flush()  # here, not at exit: a full disk behind stdout is then one more error line
+        return status
     except InputError as err:
         print(f"error: {err}", file=sys.stderr)
         return 2
@@ -405,7 +422,21 @@ def main(argv=None) -> int:
         print("interrupted", file=sys.stderr)
         return 130
     except BrokenPipeError:
+        _silence_stdout()
         return 0
+    except OSError as err:  # a failure the writers did not anticipate (they name their own)
+        from .outputs import os_failure, os_reason
+
+        if err.filename is not None:
+            print(f"error: {os_failure(err, 'use', err.filename)}", file=sys.stderr)
+        else:  # e.g. the file that standard output goes to is on a full disk
+            _silence_stdout()
+            print(f"error: cannot write the output: {os_reason(err)}", file=sys.stderr)
+        return 2
+    except MemoryError:
+        print("error: out of memory: choose a smaller basis (--size), fewer symmetries or a coarser --grid",
+              file=sys.stderr)
+        return 2
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -1,8 +1,9 @@
 """Export a solved basis for a many-body code (HDF5, or .npz + JSON) and read it back.
 
 The layout is ours and documented in docs/file-format.md ("relbasis-basis", layout version 1).
-Files are written to a temporary name in the target directory and renamed into place; an
-existing file is replaced only with ``force``.  The reader checks the format name and layout
+Files are written under a unique temporary name in the target directory and renamed into place
+(:mod:`relbasis.outputs`); an existing file is replaced only with ``force`` and only if relbasis
+wrote it (its ``format`` attribute says so); modes follow the umask.  The reader checks the format name and layout
 version and turns every problem into a one-line InputError; it reads plain datasets and
 attributes only (no pickled objects, nothing executed).
 """
@@ -10,8 +11,7 @@ attributes only (no pickled objects, nothing executed).
 from __future__ import annotations
 
 import json
-import os
-import tempfile
+import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -22,6 +22,7 @@ from .bspline import BSplineBasis
 from .dirac import DiracBasis, Family
 from .dirac_gaussian import GaussianDiracBasis
 from .errors import InputError
+from .outputs import atomic_group, atomic_write
 
 FORMAT = "relbasis-basis"
 LAYOUT_VERSION = 1
@@ -31,27 +32,50 @@ BLOCKS = ("dipole", "hyperfine", "slater")
 # ----------------------------------------------------------------------------- writing
 
 
-def _target(path, force: bool) -> Path:
+def check_target(path, force: bool) -> Path:
+    """The output file, after making sure writing it destroys nothing unasked.
+
+    An existing file is replaced only with ``force``, and only if relbasis wrote it (its
+    ``format`` attribute, or for .npz the sidecar's, says so): a foreign file is never replaced.
+    """
     p = Path(path)
-    if p.exists() and not force:
-        raise InputError(f"output file {str(p)!r} exists: choose another name or add --force to replace it")
-    if p.exists() and p.is_dir():
-        raise InputError(f"--out {str(p)!r} is a directory, not a file")
-    if not p.resolve().parent.is_dir():
-        raise InputError(f"--out {str(p)!r}: the directory {str(p.resolve().parent)!r} does not exist")
+    if p.is_dir():
+        raise InputError(f"--out {str(p)!r} is a directory: give a file name such as {str(p / 'basis.h5')!r}")
+    if not p.parent.is_dir():
+        what = "is not a directory" if p.parent.exists() else "does not exist"
+        raise InputError(f"--out {str(p)!r}: {str(p.parent)!r} {what}")
+    if p.suffix not in (".h5", ".hdf5", ".npz"):
+        raise InputError(f"--out {str(p)!r}: give a .h5 (HDF5) or .npz (numpy + JSON) file name")
+    for q in (p, p.with_suffix(".json")) if p.suffix == ".npz" else (p,):
+        if not (q.exists() or q.is_symlink()):
+            continue
+        if not _written_by_us(q):
+            raise InputError(f"output file {str(q)!r} exists and was not written by relbasis: it is never replaced "
+                             f"(not even with --force); move it or choose another name")
+        if not force:
+            raise InputError(f"output file {str(q)!r} exists: choose another name or add --force to replace it "
+                             f"(force=True in Python)")
     return p
 
 
-def _atomic(path: Path, write) -> None:
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.resolve().parent)
-    os.close(fd)
+def _written_by_us(p: Path) -> bool:
+    """True if ``p`` is a regular file that carries relbasis's format marker."""
+    if p.is_symlink() or not p.is_file():
+        return False
     try:
-        write(tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+        if p.suffix == ".json":
+            return json.loads(p.read_text(encoding="utf-8")).get("attrs", {}).get("format") == FORMAT
+        if p.suffix == ".npz":
+            side = p.with_suffix(".json")
+            return zipfile.is_zipfile(p) and side.is_file() and _written_by_us(side)
+        import h5py
+
+        if not h5py.is_hdf5(p):
+            return False
+        with h5py.File(p, "r") as f:
+            return _plain(f.attrs.get("format")) == FORMAT
+    except (OSError, ValueError, AttributeError, TypeError, RuntimeError):
+        return False
 
 
 def _payload(sol, grid: np.ndarray | None, blocks, slater=()) -> dict:
@@ -154,17 +178,16 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=()) -
         raise InputError(f"--with {bad[0]!r}: valid integral blocks are {', '.join(BLOCKS)}")
     if "slater" in blocks and not slater:
         raise InputError("--with slater: say which integrals with --slater K:A,B,C,D (e.g. 0:1s1/2,1s1/2,1s1/2,1s1/2)")
-    target = _target(path, force)
+    target = check_target(path, force)
     data = _payload(sol, grid, blocks, tuple(slater))
     if target.suffix in (".h5", ".hdf5"):
-        _atomic(target, lambda tmp: _write_h5(tmp, data))
-    elif target.suffix == ".npz":
-        _target(target.with_suffix(".json"), force)
-        _atomic(target, lambda tmp: _write_npz(tmp, data))
+        atomic_write(target, lambda tmp: _write_h5(tmp, data), "write the basis file")
+    else:  # .npz and its sidecar: both staged, then renamed, so that they always belong together
         meta = {"attrs": data["attrs"], "strings": {k: list(v) for k, v in data["arrays"].items() if v.dtype == object}}
-        _atomic(target.with_suffix(".json"), lambda tmp: Path(tmp).write_text(json.dumps(meta, indent=1)))
-    else:
-        raise InputError(f"--out {str(target)!r}: give a .h5 (HDF5) or .npz (numpy + JSON) file name")
+        atomic_group([(target, lambda tmp: _write_npz(tmp, data)),
+                      (target.with_suffix(".json"),
+                       lambda tmp: Path(tmp).write_text(json.dumps(meta, indent=1), encoding="utf-8"))],
+                     "write the basis file")
     return target
 
 

@@ -18,6 +18,15 @@ def _pyplot():
     return plt
 
 
+def _save(plt, fig, path) -> None:
+    """PNG by name: the path may be a temporary one without the .png suffix; the figure is
+    closed even when writing fails (a full disk), so that no figure leaks."""
+    try:
+        fig.savefig(path, format="png")
+    finally:
+        plt.close(fig)
+
+
 def spectrum_figure(solution, path) -> None:
     """Every root of every symmetry on a symmetric-log energy axis, coloured by branch.
 
@@ -60,8 +69,7 @@ def spectrum_figure(solution, path) -> None:
     ax.legend(seen.values(), seen.keys(), loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=8)
     ax.grid(True, axis="y", lw=0.3, alpha=0.5)
     fig.tight_layout()
-    fig.savefig(path)
-    plt.close(fig)
+    _save(plt, fig, path)
 
 
 def convergence_figure(series: dict, path, title: str, target: float | None = None) -> None:
@@ -80,8 +88,7 @@ def convergence_figure(series: dict, path, title: str, target: float | None = No
     ax.grid(True, which="both", lw=0.3, alpha=0.5)
     ax.legend(fontsize=7, ncol=2 if len(series) > 12 else 1, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     fig.tight_layout()
-    fig.savefig(path)
-    plt.close(fig)
+    _save(plt, fig, path)
 
 
 def scan_figure(label: str, state: dict, target: float, path) -> None:
@@ -105,5 +112,4 @@ def scan_figure(label: str, state: dict, target: float, path) -> None:
     ax.grid(True, which="both", lw=0.3, alpha=0.5)
     ax.legend(fontsize=6, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     fig.tight_layout()
-    fig.savefig(path)
-    plt.close(fig)
+    _save(plt, fig, path)

@@ -28,6 +28,7 @@ computes only the units whose key is not there yet.  Work runs in joblib's proce
 from __future__ import annotations
 
 import csv
+import errno
 import hashlib
 import itertools
 import json
@@ -46,6 +47,7 @@ from . import __version__
 from .analytic import dirac_coulomb_energy, orbital_l
 from .config import _KEYS, _suggest, from_dict
 from .errors import ConfigError, InputError
+from .outputs import atomic_text, atomic_write, directory_for, os_failure, read_manifest, write_manifest
 
 REFERENCES = ("auto", "exact", "largest")
 _LABEL = re.compile(r"^(\d+)([spdfghiklmnoqrtuvwxyz])(\d+)/2$")
@@ -276,19 +278,26 @@ class Store:
         """One os.write of one line with O_APPEND: the line lands whole, and once written it is in
         the kernel and survives the process being killed; :meth:`sync` flushes it to the disk."""
         data = (json.dumps(record, sort_keys=True) + "\n").encode()
-        fd = os.open(self.path, os.O_WRONLY | os.O_APPEND | os.O_CREAT, 0o644)
         try:
-            os.write(fd, data)
-        finally:
-            os.close(fd)
+            fd = os.open(self.path, os.O_WRONLY | os.O_APPEND | os.O_CREAT, 0o666)  # the umask decides
+            try:
+                if os.write(fd, data) != len(data):  # a short write: the disk is full; the torn line is ignored on reading
+                    raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+            finally:
+                os.close(fd)
+        except OSError as err:
+            raise os_failure(err, "append to the scan results", self.path) from None
 
     def sync(self) -> None:
         if self.path.exists():
-            fd = os.open(self.path, os.O_RDONLY)
             try:
-                os.fsync(fd)
-            finally:
-                os.close(fd)
+                fd = os.open(self.path, os.O_RDONLY)
+                try:
+                    os.fsync(fd)
+                finally:
+                    os.close(fd)
+            except OSError as err:
+                raise os_failure(err, "flush the scan results", self.path) from None
 
 
 # ----------------------------------------------------------------------------- execution
@@ -320,8 +329,9 @@ def _execute(todo: list[Unit], jobs: int, scheduler: str | None, store: Store, p
                 raise InputError("--scheduler needs the 'cluster' extra: pip install 'relbasis[cluster]'") from None
             try:
                 client = Client(scheduler, timeout="10s")
-            except (OSError, TimeoutError) as err:
-                raise InputError(f"--scheduler {scheduler!r}: cannot reach the scheduler ({err})") from None
+            except (OSError, TimeoutError, ValueError, TypeError) as err:
+                reason = (str(err).splitlines() or [type(err).__name__])[0]
+                raise InputError(f"--scheduler {scheduler!r}: cannot reach the scheduler ({reason})") from None
             try:
                 with parallel_config(backend="dask"):
                     for rec in Parallel(return_as="generator_unordered")(calls):
@@ -340,15 +350,82 @@ def _execute(todo: list[Unit], jobs: int, scheduler: str | None, store: Store, p
     return count
 
 
+SCHEDULER_ADDRESS = re.compile(r"^(?:(tcp|tls|ws|wss|ucx|inproc)://)?(\[[0-9a-fA-F:.]+\]|[A-Za-z0-9_.-]+):(\d{1,5})$")
+"""A dask.distributed scheduler address: [PROTOCOL://]HOST:PORT."""
+
+
+def check_scheduler(address: str) -> str:
+    """A scheduler address that dask.distributed can dial, or a one-line error saying what is."""
+    m = SCHEDULER_ADDRESS.match(address.strip()) if isinstance(address, str) else None
+    if m is None or not 0 < int(m.group(3)) < 65536:
+        raise InputError(f"--scheduler {address!r}: give the scheduler's address as [PROTOCOL://]HOST:PORT, "
+                         f"e.g. tcp://127.0.0.1:8786 (protocols tcp, tls, ws, wss, ucx, inproc)")
+    return address.strip()
+
+
+OUTPUT_KIND = "scan"
+FIXED_OUTPUTS = ("results.jsonl", "summary.json", "convergence.csv")
+
+
+def _looks_like_results(path: Path) -> bool:
+    """A results store of relbasis (written before folders carried a manifest): every whole line a record."""
+    try:
+        with path.open("r", encoding="utf-8") as fh:
+            lines = fh.read().splitlines()
+    except (OSError, UnicodeDecodeError):
+        return False
+    records = 0
+    for i, line in enumerate(lines):
+        try:
+            rec = json.loads(line)
+        except json.JSONDecodeError:
+            if i == len(lines) - 1:
+                continue  # a line cut short by an interruption
+            return False
+        if not (isinstance(rec, dict) and "key" in rec and "config" in rec and "levels" in rec):
+            return False
+        records += 1
+    return records > 0
+
+
+def claim_folder(out: Path) -> set[str]:
+    """Check that the scan may write into ``out``; returns the names a scan wrote there before.
+
+    A scan folder is resumed: its results store is appended to, and its analysis (summary,
+    table, pictures: all derived from the store, so nothing is lost) is rewritten for the plan
+    at hand.  A file relbasis did not write is never replaced.
+    """
+    manifest = read_manifest(out)
+    ours = {name for name, kind in manifest.items() if kind == OUTPUT_KIND}
+    if not ours and (out / "results.jsonl").is_file() and _looks_like_results(out / "results.jsonl"):
+        # a folder written before manifests existed: its results store says it is a scan folder
+        ours = {p.name for p in out.iterdir() if p.is_file() and p.name not in manifest
+                and (p.name in FIXED_OUTPUTS or _PICTURE.match(p.name))}
+    present = [p.name for p in out.iterdir() if p.name in FIXED_OUTPUTS or _PICTURE.match(p.name)]
+    foreign = sorted(n for n in present if n not in ours or not (out / n).is_file() or (out / n).is_symlink())
+    if foreign:
+        raise InputError(f"--out {str(out)!r} holds {foreign[0]!r}, which relbasis did not write there: it is never "
+                         f"replaced; move it or choose another folder")
+    return ours
+
+
 def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, progress: bool = True) -> ScanResult:
-    """Run (or resume) a scan and write its analysis into ``out``."""
+    """Run (or resume) a scan and write its analysis into ``out``.
+
+    ``out`` may hold other files: the scan writes only results.jsonl, summary.json,
+    convergence.csv, error_*.png and its manifest, and replaces only files it wrote itself.
+    """
     plan = plan if isinstance(plan, Plan) else load_plan(plan)
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs == 0 or jobs < -1:
         raise InputError(f"--jobs {jobs!r}: give a positive number of processes (or -1 for all cores)")
+    if scheduler is not None:
+        scheduler = check_scheduler(scheduler)
     out = Path(out)
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {str(out)!r} is a file, not a directory")
-    out.mkdir(parents=True, exist_ok=True)
+    ours = claim_folder(out) if out.is_dir() else set()
+    with directory_for(out, "--out", parents=True):  # a folder made for nothing is taken back
+        write_manifest(out, OUTPUT_KIND, ours | {"results.jsonl"})  # before the first record lands
     store = Store(out / "results.jsonl")
     everything = units(plan)
     done = store.load()
@@ -359,7 +436,13 @@ def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, prog
         store.sync()
     records = store.load()
     summary = analyse(plan, everything, records)
-    write_outputs(out, summary, jobs if not scheduler else 1)
+    written = write_outputs(out, summary, jobs if not scheduler else 1, ours)
+    for stale in sorted(n for n in ours if _PICTURE.match(n) and n not in written):
+        try:  # a picture of a state this plan no longer tracks: ours, so it goes
+            (out / stale).unlink()
+        except OSError:
+            written.add(stale)  # still there: keep it on the record
+    write_manifest(out, OUTPUT_KIND, written | {"results.jsonl"})
     return ScanResult(plan, out, len(everything), computed, summary)
 
 
@@ -475,10 +558,25 @@ def _recommend(plan: Plan, states) -> dict | None:
 # ----------------------------------------------------------------------------- outputs
 
 
-def write_outputs(out: Path, summary: dict, jobs: int = 1) -> None:
-    """summary.json, convergence.csv and one PNG per tracked state (each written atomically;
-    the pictures are drawn by ``jobs`` processes, as matplotlib's text and lines take time)."""
-    _atomic_text(out / "summary.json", json.dumps(summary, indent=1, sort_keys=True))
+_PICTURE = re.compile(r"^error_[0-9a-z_]+\.png$")
+
+
+def _picture_name(label: str) -> str:
+    return "error_" + re.sub(r"[^0-9a-z]", "_", label) + ".png"
+
+
+def write_outputs(out: Path, summary: dict, jobs: int = 1, ours=frozenset()) -> set[str]:
+    """summary.json, convergence.csv and one PNG per tracked state, each written atomically
+    under a unique temporary name; returns the names written.  A name that exists and is not in
+    ``ours`` (what relbasis wrote there before) is refused, not replaced.  The pictures are drawn
+    by ``jobs`` processes, as matplotlib's text and lines take time."""
+    pictures = {lab: _picture_name(lab) for lab in summary["states"]}
+    for name in (*FIXED_OUTPUTS[1:], *pictures.values()):
+        p = out / name
+        if (p.exists() or p.is_symlink()) and name not in ours:
+            raise InputError(f"--out {str(out)!r} holds {name!r}, which relbasis did not write there: it is never "
+                             f"replaced; move it and run the scan again (its results are kept)")
+    atomic_text(out / "summary.json", json.dumps(summary, indent=1, sort_keys=True), "write the scan summary")
     lines = []
     for lab, st in summary["states"].items():
         for r in st["rows"]:
@@ -490,30 +588,25 @@ def write_outputs(out: Path, summary: dict, jobs: int = 1) -> None:
         for k in line:
             if k not in fields:
                 fields.append(k)
-    tmp = out / ".convergence.csv.tmp"
-    with tmp.open("w", newline="", encoding="utf-8") as fh:
-        w = csv.DictWriter(fh, fieldnames=fields)
-        w.writeheader()
-        w.writerows(lines)
-    os.replace(tmp, out / "convergence.csv")
+
+    def write_csv(tmp):
+        with open(tmp, "w", newline="", encoding="utf-8") as fh:
+            w = csv.DictWriter(fh, fieldnames=fields)
+            w.writeheader()
+            w.writerows(lines)
+
+    atomic_write(out / "convergence.csv", write_csv, "write the convergence table")
     from joblib import Parallel, delayed
 
-    Parallel(n_jobs=jobs)(delayed(_picture)(lab, st, summary["target"], out) for lab, st in summary["states"].items())
+    Parallel(n_jobs=jobs)(delayed(_picture)(lab, st, summary["target"], out / pictures[lab])
+                          for lab, st in summary["states"].items())
+    return {"summary.json", "convergence.csv", *pictures.values()}
 
 
-def _picture(label: str, state: dict, target: float, out: Path) -> None:
+def _picture(label: str, state: dict, target: float, path: Path) -> None:
     from .plots import scan_figure
 
-    name = "error_" + re.sub(r"[^0-9a-z]", "_", label) + ".png"
-    tmp = out / f".{name}.tmp.png"
-    scan_figure(label, state, target, tmp)
-    os.replace(tmp, out / name)
-
-
-def _atomic_text(path: Path, text: str) -> None:
-    tmp = path.with_name(f".{path.name}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
+    atomic_write(path, lambda tmp: scan_figure(label, state, target, tmp), "write the picture")
 
 
 def summary_table(summary: dict) -> str:

@@ -8,6 +8,7 @@ import relbasis
 from relbasis.audit import audit, closure, sum_rule
 from relbasis.constants import C
 from relbasis.cli import main
+from relbasis.outputs import MANIFEST
 from conftest import solve_cached
 
 
@@ -99,13 +100,13 @@ def test_audit_json_contract_and_report(tmp_path, capsys):
     report = tmp_path / "rep"
     assert main(["audit", "--z", "26", "--kappas", "-1,1,-2", "--report", str(report)]) == 0
     capsys.readouterr()
-    assert {p.name for p in report.iterdir()} == {"audit.json", "spectrum.png", "convergence.png"}
+    assert {p.name for p in report.iterdir()} == {"audit.json", "spectrum.png", "convergence.png", MANIFEST}
     for png in ("spectrum.png", "convergence.png"):
         assert (report / png).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     stamp = (report / "audit.json").stat().st_mtime_ns
     assert main(["audit", "--z", "26", "--report", str(report)]) == 2
     err = capsys.readouterr().err
-    assert "exists" in err and "--force" in err and len(err.strip().splitlines()) == 1
+    assert "already holds" in err and "--force" in err and len(err.strip().splitlines()) == 1
     assert (report / "audit.json").stat().st_mtime_ns == stamp  # untouched
     assert main(["audit", "--z", "26", "--kappas", "-1", "--report", str(report), "--force"]) == 0
     assert json.loads((report / "audit.json").read_text())["basis"]["functions"] == {"-1": 193}
