@@ -296,13 +296,12 @@ def from_dict(data: dict) -> Config:
 
 def load(path) -> Config:
     """Validated :class:`Config` from a TOML file."""
+    from .outputs import read_input
+
     p = Path(path)
-    if not p.is_file():
-        raise InputError(f"config file {str(p)!r} not found")
+    text = read_input(p, "config file")
     try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except UnicodeDecodeError:
-        raise InputError(f"config file {str(p)!r} is not UTF-8 text") from None
+        data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
         raise InputError(f"config file {str(p)!r} is not valid TOML: {err}") from None
     return from_dict(data)

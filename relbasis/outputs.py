@@ -146,6 +146,32 @@ def atomic_group(items: Iterable[tuple[Path, Callable[[str], None]]], what: str 
             _remove(tmp)
 
 
+# ----------------------------------------------------------------------------- inputs
+
+MAX_INPUT_BYTES = 10 * 2**20
+"""Largest config or plan file read (10 MiB; real ones are a few hundred bytes)."""
+
+
+def read_input(path, what: str) -> str:
+    """The text of a small input file (a config, a plan), or a one-line error saying why not:
+    missing, a directory, not a regular file (a device, a pipe), too large, unreadable, not UTF-8."""
+    p = Path(path)
+    if not p.exists():
+        raise InputError(f"{what} {str(p)!r} not found")
+    if p.is_dir():
+        raise InputError(f"{what} {str(p)!r} is a directory: give a TOML file")
+    if not p.is_file():
+        raise InputError(f"{what} {str(p)!r} is not a regular file: give a TOML file")
+    try:
+        if p.stat().st_size > MAX_INPUT_BYTES:
+            raise InputError(f"{what} {str(p)!r} is larger than {MAX_INPUT_BYTES // 2**20} MiB: is it the right file?")
+        return p.read_bytes().decode("utf-8")
+    except UnicodeDecodeError:
+        raise InputError(f"{what} {str(p)!r} is not UTF-8 text") from None
+    except OSError as err:
+        raise os_failure(err, f"read the {what}", p) from None
+
+
 # ----------------------------------------------------------------------------- directories
 
 

@@ -47,7 +47,7 @@ from . import __version__
 from .analytic import dirac_coulomb_energy, orbital_l
 from .config import _KEYS, _suggest, from_dict
 from .errors import ConfigError, InputError
-from .outputs import atomic_text, atomic_write, directory_for, os_failure, read_manifest, write_manifest
+from .outputs import read_input, atomic_text, atomic_write, directory_for, os_failure, read_manifest, write_manifest
 
 REFERENCES = ("auto", "exact", "largest")
 _LABEL = re.compile(r"^(\d+)([spdfghiklmnoqrtuvwxyz])(\d+)/2$")
@@ -189,11 +189,10 @@ def plan_from_dict(data: dict) -> Plan:
 
 def load_plan(path) -> Plan:
     p = Path(path)
-    if not p.is_file():
-        raise InputError(f"scan plan {str(p)!r} not found")
+    text = read_input(p, "scan plan")
     try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as err:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
         raise InputError(f"scan plan {str(p)!r} is not valid TOML: {err}") from None
     return plan_from_dict(data)
 

@@ -364,3 +364,24 @@ def test_standard_output_on_a_full_disk_is_one_line(tmp_path):
                               stderr=subprocess.PIPE, text=True, cwd=tmp_path, check=False)
     assert done.returncode == 2
     assert len(done.stderr.strip().splitlines()) == 1 and "ENOSPC" in done.stderr
+
+
+@pytest.mark.parametrize("command", ["levels", "audit", "export", "scan"])
+@pytest.mark.parametrize("path, says", [
+    ("{tmp}", "is a directory"),
+    ("/dev/null", "not a regular file"),
+    ("/proc/self/mem", "EIO"),
+    ("{tmp}/missing.toml", "not found"),
+    ("{tmp}/binary.toml", "not UTF-8"),
+])
+def test_unreadable_inputs_are_one_line(tmp_path, capsys, command, path, says):
+    if path.startswith("/") and not Path(path).exists():
+        pytest.skip(f"no {path} here")
+    (tmp_path / "binary.toml").write_bytes(b"\xff\xfe\x00Z = 92")
+    argv = [command, path.format(tmp=tmp_path)]
+    if command == "export":
+        argv += ["--out", str(tmp_path / "b.h5")]
+    if command == "scan":
+        argv += ["--out", str(tmp_path / "s")]
+    assert main(argv) == 2
+    assert says in _one_line_error(capsys)
