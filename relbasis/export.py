@@ -11,10 +11,14 @@ attributes only (no pickled objects, nothing executed).
 from __future__ import annotations
 
 import json
+import os
+import struct
 import zipfile
+import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import h5py
 import numpy as np
 
 from . import __version__, constants
@@ -68,7 +72,6 @@ def _written_by_us(p: Path) -> bool:
         if p.suffix == ".npz":
             side = p.with_suffix(".json")
             return zipfile.is_zipfile(p) and side.is_file() and _written_by_us(side)
-        import h5py
 
         if not h5py.is_hdf5(p):
             return False
@@ -192,7 +195,6 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=()) -
 
 
 def _write_h5(tmp: str, data: dict) -> None:
-    import h5py
 
     with h5py.File(tmp, "w") as f:
         for key, value in data["attrs"].items():
@@ -303,9 +305,6 @@ def load(path) -> BasisFile:
     line naming the file and what is wrong (docs/file-format.md, "What relbasis.load checks");
     nothing in the file is executed or unpickled.
     """
-    import struct
-    import zipfile
-    import zlib
 
     failures = (OSError, KeyError, ValueError, TypeError, EOFError, zipfile.BadZipFile, UnicodeDecodeError,
                 RuntimeError, AttributeError, IndexError, OverflowError, MemoryError, NotImplementedError,
@@ -393,7 +392,6 @@ class _H5Source:
     """Datasets of an open HDF5 file by path; links to other files are never followed."""
 
     def __init__(self, f):
-        import h5py
 
         self.h5py, self.f = h5py, f
 
@@ -533,9 +531,7 @@ class _NpzSource:
         return kind, words, tuple(shape)
 
     def read(self, name: str) -> np.ndarray:
-        import zipfile
-        import zlib
-
+        
         if name in self.strings:
             return np.array(self.strings[name], dtype=object)
         if self._header(name)[0] == "o":  # never handed to numpy: its data would be unpickled
@@ -547,7 +543,6 @@ class _NpzSource:
 
 
 def _load_h5(p: Path, head: bytes) -> BasisFile:
-    import h5py
 
     if head.startswith(b"PK\x03\x04"):
         raise _Damaged("is a zip archive (an .npz basis?), not HDF5: give it the suffix .npz")
@@ -576,7 +571,6 @@ def _load_h5(p: Path, head: bytes) -> BasisFile:
 
 
 def _load_npz(p: Path, head: bytes) -> BasisFile:
-    import zipfile
 
     if not head.startswith(b"PK\x03\x04"):
         if head.startswith(_HDF5_SIGNATURE):
