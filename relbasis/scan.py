@@ -37,6 +37,7 @@ import os
 import re
 import time
 import tomllib
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -44,7 +45,7 @@ import numpy as np
 
 from . import __version__
 from .analytic import dirac_coulomb_energy, orbital_l
-from .config import _KEYS, _suggest, from_dict
+from .config import _KEYS, _suggest, from_dict, resolve
 from .errors import ConfigError, InputError
 
 REFERENCES = ("auto", "exact", "largest")
@@ -122,8 +123,11 @@ def _axis_values(key: str, value) -> tuple:
     return tuple(value)
 
 
-def plan_from_dict(data: dict) -> Plan:
-    """Validated :class:`Plan` (one-line ConfigError for unknown keys, empty axes, bad values)."""
+def plan_from_dict(data: dict, allow_large: bool = False) -> Plan:
+    """Validated :class:`Plan` (one-line ConfigError for unknown keys, empty axes, bad values).
+
+    Every unit is checked before any runs (:func:`check_units`); ``allow_large`` lets units
+    beyond the work limits through (docs/performance.md)."""
     if not isinstance(data, dict):
         raise ConfigError("a scan plan is a TOML table with [base], [axes] and [track]")
     for key in data:
@@ -175,8 +179,7 @@ def plan_from_dict(data: dict) -> Plan:
     if reference not in REFERENCES:
         raise ConfigError(f"track.reference = {reference!r}: valid are {', '.join(REFERENCES)}")
     plan = Plan(base, tuple(axes), states, max_n, float(target), reference)
-    for unit in units(plan)[:1] + units(plan)[-1:]:
-        from_dict(unit.config)  # fail early, on one line, if the combination is not a valid config
+    check_units(plan, allow_large)
     if reference == "exact":
         for unit in units(plan):
             ion = unit.config["ion"]
@@ -185,7 +188,38 @@ def plan_from_dict(data: dict) -> Plan:
     return plan
 
 
-def load_plan(path) -> Plan:
+def check_units(plan: Plan, allow_large: bool = False) -> None:
+    """Every unit of the plan (its axis values merged into the base) through the config
+    validation, the defaults and their numerics check (:func:`relbasis.config.resolve`) and the
+    work estimate (:mod:`relbasis.budget`), before the first unit runs.  A problem is one line
+    naming the axis, the value and what is wrong."""
+    from .budget import check, solve_estimate
+
+    everything = units(plan)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # accuracy warnings belong to the run, not to the check
+        for i, unit in enumerate(everything):
+            try:
+                cfg, _ = resolve(from_dict(unit.config))
+                check(solve_estimate(cfg), f"basis.size = {cfg.basis.size}", allow_large,
+                      "--allow-large (allow_large=True)")
+            except InputError as err:
+                raise ConfigError(_unit_problem(unit, err, i, len(everything))) from None
+
+
+def _unit_problem(unit: Unit, err: InputError, i: int, total: int) -> str:
+    """The one-line message of a bad unit: the axis the problem names (else all of the unit's
+    settings), its value, which unit, and the problem."""
+    text = str(err)
+    named = [k for k in unit.settings if re.search(rf"(?<![\w.]){re.escape(k)}(?![\w])", text)]
+    if named:
+        key = named[0]
+        return f"axes.{key!r} = {unit.settings[key]!r} (unit {i + 1} of {total}): {text}"
+    where = ", ".join(f"{k} = {v!r}" for k, v in unit.settings.items())
+    return f"scan unit {i + 1} of {total} ({where}): {text}"
+
+
+def load_plan(path, allow_large: bool = False) -> Plan:
     p = Path(path)
     if not p.is_file():
         raise InputError(f"scan plan {str(p)!r} not found")
@@ -193,7 +227,7 @@ def load_plan(path) -> Plan:
         data = tomllib.loads(p.read_text(encoding="utf-8"))
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as err:
         raise InputError(f"scan plan {str(p)!r} is not valid TOML: {err}") from None
-    return plan_from_dict(data)
+    return plan_from_dict(data, allow_large)
 
 
 # ----------------------------------------------------------------------------- units
@@ -235,7 +269,7 @@ def run_unit(config: dict) -> dict:
     from .solver import solve
 
     t0 = time.perf_counter()
-    sol = solve(config)
+    sol = solve(config, allow_large=True, progress=False)  # its work was checked with the plan (check_units)
     levels = {}
     spurious = 0
     for kappa in sol.kappas:
@@ -340,9 +374,16 @@ def _execute(todo: list[Unit], jobs: int, scheduler: str | None, store: Store, p
     return count
 
 
-def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, progress: bool = True) -> ScanResult:
-    """Run (or resume) a scan and write its analysis into ``out``."""
-    plan = plan if isinstance(plan, Plan) else load_plan(plan)
+def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, progress: bool = True,
+         allow_large: bool = False) -> ScanResult:
+    """Run (or resume) a scan and write its analysis into ``out``.
+
+    Every unit is validated before the first runs (:func:`check_units`); ``allow_large`` lets
+    units beyond the work limits through."""
+    if isinstance(plan, Plan):
+        check_units(plan, allow_large)
+    else:
+        plan = load_plan(plan, allow_large)
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs == 0 or jobs < -1:
         raise InputError(f"--jobs {jobs!r}: give a positive number of processes (or -1 for all cores)")
     out = Path(out)
