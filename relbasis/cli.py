@@ -57,6 +57,21 @@ def _add_model_options(p: argparse.ArgumentParser) -> None:
     basis.add_argument("--quadrature", type=int, metavar="N", help="Gauss-Legendre points per knot interval")
     basis.add_argument("--wall", help="B-splines: dirichlet (P(R) = Q(R) = 0) | bag (P(R) = -Q(R))")
     p.add_argument("--kappas", metavar="LIST", help="symmetries, e.g. -1,1,-2 (default: |kappa| <= 4)")
+    _add_work_options(p)
+
+
+def _add_work_options(p: argparse.ArgumentParser, progress: bool = True) -> None:
+    """--allow-large, and the progress switches (docs/performance.md: limits and estimates)."""
+    work = p.add_argument_group("work (estimates and limits: docs/performance.md)")
+    work.add_argument("--allow-large", action="store_true",
+                      help="go on beyond the work limits: estimated memory over half of this machine's, "
+                           "over 30 min of work, or an exported file over 2 GB")
+    if progress:
+        bars = work.add_mutually_exclusive_group()
+        bars.add_argument("--progress", dest="progress", action="store_const", const=True, default=None,
+                          help="show progress bars on stderr even for short work or when it is not a terminal")
+        bars.add_argument("--no-progress", dest="progress", action="store_const", const=False,
+                          help="never show progress bars")
 
 
 def _overrides(args) -> dict:
@@ -77,14 +92,20 @@ def _overrides(args) -> dict:
     return out
 
 
-def _solution(args):
-    from .solver import solve
-
+def _config_source(args):
+    """(config file or None, section overrides) of the model options."""
     over = _overrides(args)
     config = args.config
     if config is None and "Z" not in over["ion"]:
         config = demo_config_path()
-    return solve(config, **over)
+    return config, over
+
+
+def _solution(args):
+    from .solver import solve
+
+    config, over = _config_source(args)
+    return solve(config, allow_large=args.allow_large, progress=args.progress, **over)
 
 
 def demo_config_path():
@@ -232,7 +253,8 @@ def _cmd_scan(args) -> int:
 
     if args.jobs == 0 or args.jobs < -1:
         raise InputError(f"--jobs {args.jobs}: give a positive number of processes (or -1 for all cores)")
-    result = scan(args.plan, args.out, jobs=args.jobs, scheduler=args.scheduler, progress=not args.quiet)
+    result = scan(args.plan, args.out, jobs=args.jobs, scheduler=args.scheduler, progress=not args.quiet,
+                  allow_large=args.allow_large)
     print(summary_table(result.summary))
     print(f"computed {result.computed} of {result.total} units ({result.total - result.computed} reused); "
           f"results in {result.out}")
@@ -243,22 +265,13 @@ def _cmd_export(args) -> int:
     from .export import export
 
     blocks = tuple(b for b in (args.with_ or "").replace(" ", "").split(",") if b)
-    grid = None
-    if args.grid is not None:
-        try:
-            lo, hi, count = args.grid.split(":")
-            lo, hi, count = float(lo), float(hi), int(count)
-        except ValueError:
-            raise InputError(f"--grid {args.grid!r}: give R_MIN:R_MAX:COUNT, e.g. 1e-6:40:2000 (log-spaced, bohr)") from None
-        if not (0 < lo < hi) or count < 2:
-            raise InputError(f"--grid {args.grid!r}: need 0 < R_MIN < R_MAX and COUNT >= 2")
-        grid = np.geomspace(lo, hi, count)
     from .export import check_target
 
     check_target(args.out, args.force)  # before the solve: a refusal costs nothing
+    spec = _parse_grid(args.grid) if args.grid is not None else None
+    _check_export_work(args, spec, blocks)  # before the solve and before any array is made
+    grid = np.geomspace(*spec) if spec is not None else None
     sol = _solution(args)
-    if grid is not None and sol.splines is not None and grid[-1] > sol.splines.r_max:
-        raise InputError(f"--grid: R_MAX = {grid[-1]:g} lies beyond the cavity radius r_max = {sol.splines.r_max:g} bohr")
     from .export import parse_slater
 
     slater = [parse_slater(s) for s in (args.slater or [])]
@@ -267,6 +280,44 @@ def _cmd_export(args) -> int:
     print(f"wrote {path}: {total} roots in {len(sol.kappas)} symmetries" + (f", blocks {', '.join(blocks)}" if blocks else ""))
     print(f"ion: {ion_line(sol.nucleus)}")
     return 0
+
+
+def _parse_grid(text: str) -> tuple[float, float, int]:
+    """'R_MIN:R_MAX:COUNT' -> (r_min, r_max, count), checked; nothing is allocated here."""
+    try:
+        lo, hi, count = text.split(":")
+        lo, hi, count = float(lo), float(hi), float(count)
+    except ValueError:
+        raise InputError(f"--grid {text!r}: give R_MIN:R_MAX:COUNT, e.g. 1e-6:40:2000 (log-spaced, bohr)") from None
+    if not (math.isfinite(lo) and math.isfinite(hi) and 0 < lo < hi):
+        raise InputError(f"--grid {text!r}: need finite radii 0 < R_MIN < R_MAX (bohr)")
+    if not (math.isfinite(count) and count.is_integer() and count >= 2):
+        raise InputError(f"--grid {text!r}: COUNT must be a whole number >= 2")
+    return lo, hi, int(count)
+
+
+def _check_export_work(args, spec, blocks) -> None:
+    """The grid against the cavity and the whole export against the work limits, from the
+    resolved config alone (relbasis.budget): refused at once, before the solve."""
+    from . import budget
+    from .config import LENGTH_MAX, resolve
+    from .solver import as_config
+
+    config, over = _config_source(args)
+    cfg, _ = resolve(as_config(config, **over))
+    b = cfg.basis
+    if spec is not None:
+        top = b.r_max if b.family == "bspline" else LENGTH_MAX
+        if spec[1] > top:
+            where = f"the cavity radius r_max = {top:g} bohr" if b.family == "bspline" else f"{top:g} bohr"
+            raise InputError(f"--grid: R_MAX = {spec[1]:g} lies beyond {where}")
+    est = budget.export_estimate(cfg, spec[2] if spec is not None else None, blocks)
+    if spec is not None:
+        what = (f"--grid {args.grid} ({spec[2]} points x {est.rows} roots x 2 components x 8 bytes "
+                f"in each of {est.symmetries} symmetries)")
+    else:
+        what = f"the export of {b.size} functions per component"
+    budget.check(est, what, args.allow_large)
 
 
 def _cmd_levels(args) -> int:
@@ -356,6 +407,7 @@ def build_parser() -> argparse.ArgumentParser:
     sc.add_argument("--jobs", type=int, default=1, help="worker processes (joblib loky; default 1)")
     sc.add_argument("--scheduler", metavar="ADDRESS", help="dask.distributed scheduler, e.g. tcp://127.0.0.1:8786")
     sc.add_argument("--quiet", action="store_true", help="no progress bar")
+    _add_work_options(sc, progress=False)
     sc.set_defaults(func=_cmd_scan)
     ex = _model_command(sub, "export", "write the basis (every root, both branches) to HDF5 or .npz + JSON",
                         "Export a basis for a many-body code; layout in docs/file-format.md.")

@@ -61,6 +61,32 @@ MAX_SIZE = 2000
 MAX_ORDER = 20
 DEFAULT_KAPPAS = (-1, 1, -2, 2, -3, 3, -4, 4)
 
+# Valid ranges of the numeric keys; docs/config.md derives each (a table: key, range, why).
+Z_MAX = 1000
+"""Largest nuclear charge: the critical-charge search of every level with |kappa| <= 7 starts
+below it (at Z = |kappa| c <= 959); at Z = 3000 no level of kappa = -1 or -8 is bound (measured)."""
+A_MAX = 3000
+"""Largest mass number: the rule A = 2.5 Z of the critical-charge search at Z_MAX, with margin."""
+RMS_MIN_FM, RMS_MAX_FM = 1e-3, 1e3
+"""rms charge radius (fm): three orders below the proton (0.84 fm), and above the 12 fm of an
+A = 2500 nucleus; beyond, a nucleus is numerically a point or larger than any K shell."""
+LENGTH_MIN, LENGTH_MAX = 1e-17, 1e8
+"""Shortest (r_min, r_scale, first knot) and longest (r_max) length of a B-spline basis (bohr)."""
+ROOT_MAX, ROOT_FACTOR = 1e21, 20.0
+"""The largest root of H is about ROOT_FACTOR c / r_min hartree (measured 15..20); it must stay
+below ROOT_MAX, four orders under the 2e25 at which the levels were still measured right (a
+bound level was lost at 2e27)."""
+KNOT_SPACING_MIN = 1e-6
+"""Smallest spacing of neighbouring knots relative to r: spline values lose EPS/spacing."""
+EXPONENT_MIN, EXPONENT_MAX = 1e-16, 1e16
+"""Gaussian exponents (bohr^-2): widths from 1e8 bohr (LENGTH_MAX) down to 1e-8 bohr."""
+MOMENT_LOG_MAX = 600.0
+"""Gaussian overlap integrals int r^n exp(-2 zeta r^2) dr must lie within e^(+-600) (doubles: e^709)."""
+KAPPA_MAX = 100
+"""Largest |kappa| (l <= 100): partial-wave expansions are carried to a few tens."""
+THRESHOLD_MIN, THRESHOLD_MAX = 1e-15, 1e-2
+"""overlap_threshold: below ~5 machine epsilons the kept combinations are rounding noise."""
+
 
 @dataclass(frozen=True)
 class IonSpec:
@@ -138,6 +164,18 @@ def _real(key: str, value, *, positive: bool = True) -> float:
     return value
 
 
+def _within(key: str, value: float, lo: float, hi: float, unit: str = "", why: str = "", *,
+            lo_open: bool = False, hi_open: bool = False) -> float:
+    """value if lo <= value <= hi (strict where open), else a one-line ConfigError with the range."""
+    low_ok = value > lo if lo_open else value >= lo
+    high_ok = value < hi if hi_open else value <= hi
+    if not (low_ok and high_ok):
+        name = key.rpartition(".")[2].rstrip("[]")
+        rng = f"{lo:g} {'<' if lo_open else '<='} {name} {'<' if hi_open else '<='} {hi:g}{' ' + unit if unit else ''}"
+        raise ConfigError(f"{key} = {value:g}: valid {rng}{' (' + why + ')' if why else ''}")
+    return value
+
+
 def _integer(key: str, value, minimum: int) -> int:
     if isinstance(value, bool) or not isinstance(value, numbers.Integral):
         if isinstance(value, float) and value.is_integer():
@@ -162,6 +200,8 @@ def _kappas(value) -> tuple[int, ...]:
     for k in value:
         if isinstance(k, bool) or not isinstance(k, numbers.Integral) or k == 0:
             raise ConfigError(f"solve.kappas: {k!r} is not a valid kappa (a non-zero integer: -(l+1) or +l)")
+        if abs(k) > KAPPA_MAX:
+            raise ConfigError(f"solve.kappas: kappa = {k}: valid 1 <= |kappa| <= {KAPPA_MAX} (l <= {KAPPA_MAX})")
         if int(k) not in out:
             out.append(int(k))
     if not out:
@@ -175,9 +215,14 @@ def _check_ion(d: dict) -> IonSpec:
     Z = d["Z"]
     if isinstance(Z, bool) or not isinstance(Z, numbers.Real) or not math.isfinite(float(Z)) or Z < 0:
         raise ConfigError(f"ion.Z = {Z!r}: must be a number >= 0 (0: a free particle in the cavity)")
+    _within("ion.Z", float(Z), 0, Z_MAX, why="0: a free particle in the cavity")
     A = None if d.get("A") is None else _integer("ion.A", d["A"], 1)
+    if A is not None:
+        _within("ion.A", A, 1, A_MAX, why="mass number")
     nucleus = None if d.get("nucleus") is None else _choice("ion.nucleus", d["nucleus"], MODELS)
     rms = None if d.get("rms_radius_fm") is None else _real("ion.rms_radius_fm", d["rms_radius_fm"])
+    if rms is not None:
+        _within("ion.rms_radius_fm", rms, RMS_MIN_FM, RMS_MAX_FM, "fm", "the proton has 0.84 fm")
     radius = d.get("radius")
     if radius is not None and radius not in RADIUS_CHOICES:
         hint = _suggest(radius, RADIUS_CHOICES) or " (a radius in fm goes in ion.rms_radius_fm)"
@@ -208,13 +253,10 @@ def _check_basis(d: dict) -> BasisSpec:
         kw["wall"] = _choice("basis.wall", d["wall"], WALLS)
     if d.get("size") is not None:
         kw["size"] = _integer("basis.size", d["size"], 2)
-        if kw["size"] > MAX_SIZE:
-            raise ConfigError(f"basis.size = {kw['size']}: at most {MAX_SIZE} functions (dense matrices of 2 x size rows)")
     if d.get("overlap_threshold") is not None:
         thr = _real("basis.overlap_threshold", d["overlap_threshold"])
-        if thr >= 1e-2:
-            raise ConfigError(f"basis.overlap_threshold = {thr:g}: must be below 1e-2 (typical 1e-12..1e-8)")
-        kw["overlap_threshold"] = thr
+        kw["overlap_threshold"] = _within("basis.overlap_threshold", thr, THRESHOLD_MIN, THRESHOLD_MAX,
+                                          why="typical 1e-12..1e-8; below, rounding noise is kept", hi_open=True)
     if family == "gaussian":
         return replace(b, **kw, **_check_exponents(d, kw.get("size")))
     order = _integer("basis.order", d["order"], 2) if d.get("order") is not None else DEFAULT_ORDER
@@ -226,7 +268,7 @@ def _check_basis(d: dict) -> BasisSpec:
     kw["order"] = order
     for key in ("r_min", "r_max", "r_scale"):
         if d.get(key) is not None:
-            kw[key] = _real(f"basis.{key}", d[key])
+            kw[key] = _length(f"basis.{key}", _real(f"basis.{key}", d[key]))
     if kw.get("r_min") is not None and kw.get("r_max") is not None and kw["r_min"] >= kw["r_max"]:
         raise ConfigError(f"basis.r_min = {kw['r_min']:g} must be smaller than basis.r_max = {kw['r_max']:g}")
     if "knots" in d:
@@ -234,10 +276,7 @@ def _check_basis(d: dict) -> BasisSpec:
         if isinstance(knots, str):
             kw["knots"] = _choice("basis.knots", knots, KNOT_KINDS)
         elif isinstance(knots, (list, tuple)):
-            pts = tuple(_real("basis.knots[]", x, positive=False) for x in knots)
-            if len(pts) < 3 or any(b2 <= a2 for a2, b2 in zip(pts, pts[1:])) or pts[0] < 0:
-                raise ConfigError("basis.knots: explicit breakpoints must be >= 0 and strictly increasing, at least 3")
-            kw["knots"] = pts
+            kw["knots"] = _breakpoints(knots, order)
         else:
             raise ConfigError(f"basis.knots = {knots!r}: give 'log-linear', 'exponential' or a list of breakpoints (bohr)")
     if d.get("quadrature") is not None:
@@ -247,19 +286,46 @@ def _check_basis(d: dict) -> BasisSpec:
     return replace(b, **kw)
 
 
+def _length(key: str, value: float) -> float:
+    return _within(key, value, LENGTH_MIN, LENGTH_MAX, "bohr", "double precision and the size of atoms")
+
+
+def _breakpoints(knots, order: int) -> tuple[float, ...]:
+    """Explicit breakpoints: >= 0, strictly increasing, at least 3, inside the length range and
+    apart by KNOT_SPACING_MIN relative to r; no more than MAX_SIZE splines."""
+    pts = tuple(_real("basis.knots[]", x, positive=False) for x in knots)
+    if len(pts) < 3 or any(b2 <= a2 for a2, b2 in zip(pts, pts[1:])) or pts[0] < 0:
+        raise ConfigError(f"basis.knots: explicit breakpoints must be >= 0 and strictly increasing, at least 3 "
+                          f"(got {len(pts)})")
+    first = pts[1] if pts[0] == 0 else pts[0]
+    _within("basis.knots[]", first, LENGTH_MIN, LENGTH_MAX, "bohr", "the first non-zero breakpoint")
+    _within("basis.knots[]", pts[-1], LENGTH_MIN, LENGTH_MAX, "bohr", "the last breakpoint, the cavity radius")
+    x = np.asarray(pts)
+    rel = np.diff(x) / x[1:]
+    j = int(np.argmin(rel))
+    if rel[j] < KNOT_SPACING_MIN:
+        raise ConfigError(f"basis.knots: breakpoints {x[j]:.17g} and {x[j + 1]:.17g} are {rel[j]:.1e} apart "
+                          f"relative to r; valid spacing >= {KNOT_SPACING_MIN:g} (spline values lose digits)")
+    size = len(pts) - 1 + order - 1
+    if size > MAX_SIZE:
+        raise ConfigError(f"basis.knots: {len(pts)} breakpoints span {size} splines of order {order}; "
+                          f"at most {MAX_SIZE} (dense matrices of 2 x size rows)")
+    return pts
+
+
 def _check_exponents(d: dict, size) -> dict:
     kw = {}
     if d.get("exponents") is not None:
         ex = d["exponents"]
         if isinstance(ex, (str, bytes)) or not hasattr(ex, "__iter__"):
             raise ConfigError(f"basis.exponents = {ex!r}: give a list of positive numbers (bohr^-2)")
-        vals = tuple(sorted(_real("basis.exponents[]", x) for x in ex))
+        vals = tuple(sorted(_exponent("basis.exponents[]", _real("basis.exponents[]", x)) for x in ex))
         if len(vals) < 2 or len(set(vals)) != len(vals):
-            raise ConfigError("basis.exponents: give at least two distinct positive exponents")
+            raise ConfigError(f"basis.exponents: give at least two distinct positive exponents (got {len(vals)})")
         if size is not None and size != len(vals):
             raise ConfigError(f"basis.size = {size} disagrees with the {len(vals)} basis.exponents given; drop one of them")
         if len(vals) > MAX_SIZE:
-            raise ConfigError(f"basis.exponents: at most {MAX_SIZE} exponents")
+            raise ConfigError(f"basis.exponents: {len(vals)} given, at most {MAX_SIZE} exponents")
         if d.get("exponent_min") is not None or d.get("exponent_max") is not None:
             raise ConfigError("basis.exponents is given: drop basis.exponent_min and basis.exponent_max")
         kw["exponents"] = vals
@@ -267,10 +333,24 @@ def _check_exponents(d: dict, size) -> dict:
         return kw
     for key in ("exponent_min", "exponent_max"):
         if d.get(key) is not None:
-            kw[key] = _real(f"basis.{key}", d[key])
+            kw[key] = _exponent(f"basis.{key}", _real(f"basis.{key}", d[key]))
     if "exponent_min" in kw and "exponent_max" in kw and kw["exponent_min"] >= kw["exponent_max"]:
         raise ConfigError(f"basis.exponent_min = {kw['exponent_min']:g} must be smaller than basis.exponent_max = {kw['exponent_max']:g}")
     return kw
+
+
+def _exponent(key: str, value: float) -> float:
+    return _within(key, value, EXPONENT_MIN, EXPONENT_MAX, "bohr^-2", "widths 1e-8..1e8 bohr")
+
+
+def _check_size(basis: BasisSpec, kappas: int) -> None:
+    """size within 2..MAX_SIZE; beyond the cap the message carries the estimate of the work."""
+    if basis.size is not None and basis.size > MAX_SIZE:
+        from .budget import size_estimate
+
+        est = size_estimate(basis.size, kappas)
+        raise ConfigError(f"basis.size = {basis.size}: at most {MAX_SIZE} functions (dense matrices of 2 x size "
+                          f"rows); this one would take {est.text()}")
 
 
 def from_dict(data: dict) -> Config:
@@ -291,6 +371,7 @@ def from_dict(data: dict) -> Config:
     ion = _check_ion(data["ion"])
     basis = _check_basis(data.get("basis", {}))
     solve = SolveSpec(_kappas(data["solve"]["kappas"])) if "kappas" in data.get("solve", {}) else SolveSpec()
+    _check_size(basis, len(solve.kappas))
     return Config(ion, basis, solve)
 
 
@@ -341,7 +422,95 @@ def resolve(config: Config, c: float = C) -> tuple[Config, Nucleus]:
     c -> infinity: 1e-6/Z); r_min = R/10 for a finite nucleus of edge radius R, where the
     orbitals are analytic at 0; quadrature = order + 4 points per knot interval.  r_max and
     r_scale follow the nonrelativistic extent of the orbitals and do not depend on c.
+    The result is checked against what double precision can represent (:func:`check_numerics`).
     """
+    out, nuc = _resolve(config, c)
+    check_numerics(out, c, config.basis, Z=float(config.ion.Z))
+    return out, nuc
+
+
+def check_numerics(config: Config, c: float = C, given: BasisSpec | None = None, Z: float | None = None) -> None:
+    """A resolved basis against the ranges double precision can represent (docs/config.md).
+
+    B-splines: r_min, r_max and r_scale in [LENGTH_MIN, LENGTH_MAX]; the largest root of H,
+    about ROOT_FACTOR c / r_min, below ROOT_MAX; neighbouring generated knots at least
+    KNOT_SPACING_MIN apart relative to r.  Gaussians: exponents in [EXPONENT_MIN, EXPONENT_MAX]
+    and the overlap integrals of every requested symmetry within e^(+-MOMENT_LOG_MAX).
+    ``given`` (the basis as the user wrote it) tells a default from a given value in messages.
+    """
+    b = config.basis
+    given = b if given is None else given
+
+    def note(key: str) -> str:
+        if getattr(given, key, None) is not None:
+            return ""
+        if isinstance(b.knots, tuple) and key in ("r_min", "r_max"):
+            return "set by basis.knots"
+        return f"the default for Z = {Z:g}; give basis.{key}" if Z is not None else f"the default; give basis.{key}"
+
+    if b.family == "gaussian":
+        _check_gaussian_numerics(config, note)
+        return
+    for key in ("r_min", "r_max", "r_scale"):
+        value = getattr(b, key)
+        if value is not None:
+            _within(f"basis.{key}", value, LENGTH_MIN, LENGTH_MAX, "bohr",
+                    note(key) or "double precision and the size of atoms")
+    floor = ROOT_FACTOR * c / ROOT_MAX
+    if b.r_min < floor:
+        why = note("r_min")
+        raise ConfigError(f"basis.r_min = {b.r_min:g}{' (' + why + ')' if why else ''}: valid r_min >= {floor:.2g} "
+                          f"bohr for c = {c:g} (the largest root of H, about {ROOT_FACTOR:g} c/r_min = "
+                          f"{ROOT_FACTOR * c / b.r_min:.1e} hartree, must stay below {ROOT_MAX:.0e} in double precision)")
+    if isinstance(b.knots, tuple):
+        return  # explicit breakpoints: checked as given (_breakpoints)
+    m = b.size - b.order + 1
+    rho = b.r_max / b.r_min
+    if b.knots == "exponential":
+        spacing = -math.expm1(-math.log(rho) / (m - 1))
+    else:
+        ds = (math.log(rho) + (b.r_max - b.r_min) / b.r_scale) / (m - 1)
+        spacing = ds / (1.0 + b.r_max / b.r_scale)
+    if spacing < KNOT_SPACING_MIN:
+        raise ConfigError(f"basis.r_min = {b.r_min:g} and basis.r_max = {b.r_max:g} bohr with {b.size} splines: "
+                          f"neighbouring knots {spacing:.1e} apart relative to r; valid spacing >= "
+                          f"{KNOT_SPACING_MIN:g} (spline values lose digits): widen r_max/r_min or use fewer splines")
+
+
+def _log_moment(n: float, a: float) -> float:
+    """ln of int_0^inf r^n exp(-a r^2) dr = Gamma((n+1)/2) / (2 a^((n+1)/2))."""
+    return math.lgamma((n + 1) / 2) - (n + 1) / 2 * math.log(a) - math.log(2.0)
+
+
+def _moments_fit(l_large: int, l_small: int, zmin: float, zmax: float) -> bool:
+    """Whether every overlap integral of a symmetry (powers r^(2 min(l)) .. r^(2 max(l) + 4),
+    exponents 2 zeta_min .. 2 zeta_max) is representable with margin."""
+    lo, hi = 2 * min(l_large, l_small), 2 * max(l_large, l_small) + 4
+    return all(abs(_log_moment(n, 2 * z)) <= MOMENT_LOG_MAX for n in (lo, hi) for z in (zmin, zmax))
+
+
+def _check_gaussian_numerics(config: Config, note) -> None:
+    from .analytic import orbital_l
+
+    b = config.basis
+    if b.exponents is not None:
+        zmin, zmax = min(b.exponents), max(b.exponents)
+    else:
+        zmin = _within("basis.exponent_min", b.exponent_min, EXPONENT_MIN, EXPONENT_MAX, "bohr^-2",
+                       note("exponent_min") or "widths 1e-8..1e8 bohr")
+        zmax = _within("basis.exponent_max", b.exponent_max, EXPONENT_MIN, EXPONENT_MAX, "bohr^-2",
+                       note("exponent_max") or "widths 1e-8..1e8 bohr")
+    for kappa in config.solve.kappas:
+        if not _moments_fit(orbital_l(kappa), orbital_l(-kappa), zmin, zmax):
+            top = max((k for k in range(1, KAPPA_MAX + 1)
+                       if _moments_fit(k, k + 1, zmin, zmax) and _moments_fit(k - 1, k, zmin, zmax)), default=0)
+            raise ConfigError(f"solve.kappas: kappa = {kappa} with Gaussian exponents {zmin:.3g}..{zmax:.3g} bohr^-2: "
+                              f"the overlap integrals of r^{orbital_l(kappa) + 1} exp(-zeta r^2) fall outside double "
+                              f"precision; valid |kappa| <= {top} for these exponents (or narrow the exponent range)")
+
+
+def _resolve(config: Config, c: float = C) -> tuple[Config, Nucleus]:
+    """The resolved config and nucleus before the numerics check (see :func:`resolve`)."""
     nuc = nucleus_of(config.ion)
     Z = float(config.ion.Z)
     b = config.basis

@@ -38,6 +38,7 @@ import os
 import re
 import time
 import tomllib
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -45,7 +46,7 @@ import numpy as np
 
 from . import __version__
 from .analytic import dirac_coulomb_energy, orbital_l
-from .config import _KEYS, _suggest, from_dict
+from .config import _KEYS, _suggest, from_dict, resolve
 from .errors import ConfigError, InputError
 from .outputs import read_input, atomic_text, atomic_write, directory_for, os_failure, read_manifest, write_manifest
 
@@ -124,8 +125,11 @@ def _axis_values(key: str, value) -> tuple:
     return tuple(value)
 
 
-def plan_from_dict(data: dict) -> Plan:
-    """Validated :class:`Plan` (one-line ConfigError for unknown keys, empty axes, bad values)."""
+def plan_from_dict(data: dict, allow_large: bool = False) -> Plan:
+    """Validated :class:`Plan` (one-line ConfigError for unknown keys, empty axes, bad values).
+
+    Every unit is checked before any runs (:func:`check_units`); ``allow_large`` lets units
+    beyond the work limits through (docs/performance.md)."""
     if not isinstance(data, dict):
         raise ConfigError("a scan plan is a TOML table with [base], [axes] and [track]")
     for key in data:
@@ -177,8 +181,7 @@ def plan_from_dict(data: dict) -> Plan:
     if reference not in REFERENCES:
         raise ConfigError(f"track.reference = {reference!r}: valid are {', '.join(REFERENCES)}")
     plan = Plan(base, tuple(axes), states, max_n, float(target), reference)
-    for unit in units(plan)[:1] + units(plan)[-1:]:
-        from_dict(unit.config)  # fail early, on one line, if the combination is not a valid config
+    check_units(plan, allow_large)
     if reference == "exact":
         for unit in units(plan):
             ion = unit.config["ion"]
@@ -187,14 +190,45 @@ def plan_from_dict(data: dict) -> Plan:
     return plan
 
 
-def load_plan(path) -> Plan:
+def check_units(plan: Plan, allow_large: bool = False) -> None:
+    """Every unit of the plan (its axis values merged into the base) through the config
+    validation, the defaults and their numerics check (:func:`relbasis.config.resolve`) and the
+    work estimate (:mod:`relbasis.budget`), before the first unit runs.  A problem is one line
+    naming the axis, the value and what is wrong."""
+    from .budget import check, solve_estimate
+
+    everything = units(plan)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # accuracy warnings belong to the run, not to the check
+        for i, unit in enumerate(everything):
+            try:
+                cfg, _ = resolve(from_dict(unit.config))
+                check(solve_estimate(cfg), f"basis.size = {cfg.basis.size}", allow_large,
+                      "--allow-large (allow_large=True)")
+            except InputError as err:
+                raise ConfigError(_unit_problem(unit, err, i, len(everything))) from None
+
+
+def _unit_problem(unit: Unit, err: InputError, i: int, total: int) -> str:
+    """The one-line message of a bad unit: the axis the problem names (else all of the unit's
+    settings), its value, which unit, and the problem."""
+    text = str(err)
+    named = [k for k in unit.settings if re.search(rf"(?<![\w.]){re.escape(k)}(?![\w])", text)]
+    if named:
+        key = named[0]
+        return f"axes.{key!r} = {unit.settings[key]!r} (unit {i + 1} of {total}): {text}"
+    where = ", ".join(f"{k} = {v!r}" for k, v in unit.settings.items())
+    return f"scan unit {i + 1} of {total} ({where}): {text}"
+
+
+def load_plan(path, allow_large: bool = False) -> Plan:
     p = Path(path)
     text = read_input(p, "scan plan")
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
         raise InputError(f"scan plan {str(p)!r} is not valid TOML: {err}") from None
-    return plan_from_dict(data)
+    return plan_from_dict(data, allow_large)
 
 
 # ----------------------------------------------------------------------------- units
@@ -236,7 +270,7 @@ def run_unit(config: dict) -> dict:
     from .solver import solve
 
     t0 = time.perf_counter()
-    sol = solve(config)
+    sol = solve(config, allow_large=True, progress=False)  # its work was checked with the plan (check_units)
     levels = {}
     spurious = 0
     for kappa in sol.kappas:
@@ -408,13 +442,19 @@ def claim_folder(out: Path) -> set[str]:
     return ours
 
 
-def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, progress: bool = True) -> ScanResult:
+def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, progress: bool = True,
+         allow_large: bool = False) -> ScanResult:
     """Run (or resume) a scan and write its analysis into ``out``.
 
-    ``out`` may hold other files: the scan writes only results.jsonl, summary.json,
-    convergence.csv, error_*.png and its manifest, and replaces only files it wrote itself.
+    Every unit is validated before the first runs (:func:`check_units`); ``allow_large`` lets
+    units beyond the work limits through.  ``out`` may hold other files: the scan writes only
+    results.jsonl, summary.json, convergence.csv, error_*.png and its manifest, and replaces
+    only files it wrote itself.
     """
-    plan = plan if isinstance(plan, Plan) else load_plan(plan)
+    if isinstance(plan, Plan):
+        check_units(plan, allow_large)
+    else:
+        plan = load_plan(plan, allow_large)
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs == 0 or jobs < -1:
         raise InputError(f"--jobs {jobs!r}: give a positive number of processes (or -1 for all cores)")
     if scheduler is not None:

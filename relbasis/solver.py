@@ -8,6 +8,7 @@ first so that the duplicate-level check of kappa > 0 can look at its partner -ka
 
 from __future__ import annotations
 
+import sys
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -22,6 +23,8 @@ from .dirac_gaussian import GaussianDiracBasis
 from .eigen import DEFAULT_THRESHOLD, Eigensystem, refine, shift_invert, solve as eigensolve
 from .gaussian import even_tempered
 from .errors import InputError
+from .finite import check_matrices, check_roots
+from . import budget
 from .nucleus import Nucleus
 from .confidence import reduced_config
 from .precision import EDGE_MARGIN, POLISH_SHARE, isolated, lost, near_edge, precision_flags, settle_edge, with_flags
@@ -203,9 +206,12 @@ def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np
     basis = DiracBasis.build(splines, kappa, balance, c, point_charge, wall)
     local = basis.local_channels(table)
     H, S = basis.matrices(table, V, local)
+    cause = _spline_cause(splines, c)
+    check_matrices(kappa, H, S, cause)
     w = table.w.ravel()
     system, moved = _roots(H, S, eigensolve(H, S, threshold), c, lambda v: local.evaluate(v, "PQ"), w,
                            basis.band_order())
+    check_roots(kappa, system.energies, system.vectors, system.error, cause)
     window = examined(system.energies, c)
     coarse = coarse or splines.quadrature(1)
     P_all = basis.local_channels(coarse).dense("P", basis.size) @ system.vectors
@@ -214,6 +220,20 @@ def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np
     spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, w, V.ravel(), c, external,
                     r=table.r.ravel(), wall=splines.r_max, reference=reference)
     return basis, with_flags(spec, precision_flags(system, moved)), system
+
+
+def _spline_cause(splines: BSplineBasis, c: float) -> str:
+    """What a non-finite number of a B-spline solve points to (relbasis.finite)."""
+    t = splines.knots
+    r_min = float(t[t > 0][0]) if np.any(t > 0) else float("nan")
+    return (f"the basis (r_min = {r_min:g}, r_max = {splines.r_max:g} bohr, {splines.size} splines, c = {c:g}) "
+            "lies outside what double precision represents; see the valid ranges in docs/config.md")
+
+
+def _gaussian_cause(exponents: np.ndarray, c: float) -> str:
+    """What a non-finite number of a Gaussian solve points to (relbasis.finite)."""
+    return (f"the Gaussian exponents {float(np.min(exponents)):.3g}..{float(np.max(exponents)):.3g} bohr^-2 "
+            f"(c = {c:g}) lie outside what double precision represents; see the valid ranges in docs/config.md")
 
 
 def _roots(H, S, system: Eigensystem, c: float, sample, w, order=None) -> tuple[Eigensystem, np.ndarray]:
@@ -251,8 +271,11 @@ def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, ba
     basis = GaussianDiracBasis.build(exponents, kappa, balance, c)
     r, w = grid
     H, S = basis.matrices(nucleus, grid)
+    cause = _gaussian_cause(exponents, c)
+    check_matrices(kappa, H, S, cause)
     system = eigensolve(H, S, threshold if threshold is not None else DEFAULT_THRESHOLD)
     system, moved = _roots(H, S, system, c, lambda v: tuple(m @ v for m in basis.components(r, ("P", "Q"))), w)
+    check_roots(kappa, system.energies, system.vectors, system.error, cause)
     window = examined(system.energies, c)
     Pm, Qm, Dm = basis.components(r, ("P", "Q", "DP"))
     P_all = Pm @ system.vectors
@@ -263,34 +286,77 @@ def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, ba
     return basis, with_flags(spec, precision_flags(system, moved)), system
 
 
-def solve(config=None, *, c: float | None = None, **overrides) -> Solution:
+C_MAX = 1e10
+"""Largest speed of light of a solve: the bound levels are measured right to 8e-14 up to 1e10
+(docs/nonrelativistic.md); at 1e12 they lose digits and at 1e14 none is found."""
+
+
+def solve(config=None, *, c: float | None = None, allow_large: bool = False, progress: bool | None = None,
+          **overrides) -> Solution:
     """Spectra of the requested symmetries (see :func:`as_config` for the ways to pass a config).
 
     ``c`` replaces the speed of light (atomic units) for checks of the nonrelativistic limit
     (c -> infinity; supported 1/alpha <= c <= 1e6, bound levels measured right to 8e-14 up to
-    1e10, docs/nonrelativistic.md); every physical result uses the default c = 1/alpha.  The
-    defaults (:func:`relbasis.config.resolve`) and the export follow it.
+    1e10, docs/nonrelativistic.md; valid 1 < c <= C_MAX); every physical result uses the default
+    c = 1/alpha.  The defaults (:func:`relbasis.config.resolve`) and the export follow it.
+
+    Before any matrix is built the work is estimated (:mod:`relbasis.budget`); beyond the limits
+    of docs/performance.md the solve is refused with the estimate unless ``allow_large``.
+    ``progress``: a tqdm bar on stderr per symmetry (True), none (False), or (None) when the
+    work is estimated above about 2 s and stderr is a terminal.
 
     Every labelled level carries an error estimate (:mod:`relbasis.confidence`), made by
     solving a reduced basis first and comparing level by level.
     """
-    if c is not None and not (isinstance(c, (int, float)) and np.isfinite(c) and c > 1.0):
-        raise InputError(f"c = {c!r}: the speed of light must be a number > 1 (default 1/alpha)")
+    if c is not None and not (isinstance(c, (int, float)) and not isinstance(c, bool) and np.isfinite(c)
+                              and 1.0 < c <= C_MAX):
+        raise InputError(f"c = {c!r}: the speed of light must be a number with 1 < c <= {C_MAX:.0e} "
+                         "(default 1/alpha; docs/nonrelativistic.md)")
     c = C if c is None else float(c)
     cfg, nucleus = resolve(as_config(config, **overrides), c)
     small = reduced_config(cfg)
-    reference = {}  # no reduced basis can be made: no level can be confirmed (all unconverged)
-    if small is not None:
-        rough = _solve_resolved(small, nucleus, c, None)
-        reference = {k: {n: float(e) for n, e, b in zip(s.n, s.energies, s.branches) if n is not None and b == "bound"}
-                     for k, s in rough.spectra.items()}
-    return _solve_resolved(cfg, nucleus, c, reference)
+    estimate = budget.check(budget.solve_estimate(cfg), f"basis.size = {cfg.basis.size}",
+                            allow_large, "--allow-large (allow_large=True)")
+    bar = _progress_bar(estimate, progress, len(cfg.solve.kappas) * (2 if small is not None else 1))
+    try:
+        reference = {}  # no reduced basis can be made: no level can be confirmed (all unconverged)
+        if small is not None:
+            rough = _solve_resolved(small, nucleus, c, None, bar)
+            reference = {k: {n: float(e) for n, e, b in zip(s.n, s.energies, s.branches)
+                             if n is not None and b == "bound"} for k, s in rough.spectra.items()}
+            del rough  # its vectors are not needed beyond the levels: free them before the full solve
+        return _solve_resolved(cfg, nucleus, c, reference, bar)
+    finally:
+        if bar is not None:
+            bar.close()
 
 
-def _solve_resolved(cfg: Config, nucleus: Nucleus, c: float, reference: dict | None) -> Solution:
+def _progress_bar(estimate, progress: bool | None, total: int):
+    """A tqdm bar on stderr over the symmetry solves, or None (budget.show_progress decides)."""
+    if not budget.show_progress(estimate, progress):
+        return None
+    from tqdm import tqdm
+
+    # one update per symmetry, seconds apart: print every one (mininterval=0)
+    return tqdm(total=total, desc="solving", unit="symmetry", file=sys.stderr, leave=False, mininterval=0)
+
+
+def _starting(bar, label: str):
+    """Show on the progress bar (if any) which symmetry is being solved."""
+    if bar is not None:
+        bar.set_postfix_str(label)
+
+
+def _finished(bar):
+    """Advance the progress bar (if any) past the symmetry just solved."""
+    if bar is not None:
+        bar.update(1)
+
+
+def _solve_resolved(cfg: Config, nucleus: Nucleus, c: float, reference: dict | None, bar=None) -> Solution:
     """The spectra of a resolved config; ``reference`` (kappa -> {n: eps}) feeds the estimates."""
     if cfg.basis.family == "gaussian":
-        return _solve_gaussian(cfg, nucleus, c, reference)
+        return _solve_gaussian(cfg, nucleus, c, reference, bar)
     splines = build_splines(cfg, nucleus)
     table = splines.quadrature(cfg.basis.quadrature)
     V = nucleus.potential(table.r)
@@ -299,9 +365,11 @@ def _solve_resolved(cfg: Config, nucleus: Nucleus, c: float, reference: dict | N
     bases, spectra = {}, {}
     systems = {}
     for kappa in _kappa_order(cfg):
+        _starting(bar, f"{'reduced basis, ' if reference is None else ''}kappa {kappa:+d}")
         bases[kappa], spectra[kappa], systems[kappa] = solve_kappa(
             kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa), coarse,
             cfg.basis.overlap_threshold, cfg.basis.wall, c, _for(reference, kappa))
+        _finished(bar)
     return _solution(cfg, nucleus, splines, bases, spectra, systems, table=table, c=c)
 
 
@@ -321,12 +389,14 @@ def _solution(cfg, nucleus, splines, bases, spectra, systems: dict[int, Eigensys
                     table, gauss_grid, c)
 
 
-def _solve_gaussian(cfg: Config, nucleus: Nucleus, c: float = C, reference: dict | None = None) -> Solution:
+def _solve_gaussian(cfg: Config, nucleus: Nucleus, c: float = C, reference: dict | None = None, bar=None) -> Solution:
     b = cfg.basis
     exps = np.asarray(b.exponents) if b.exponents is not None else even_tempered(b.size, b.exponent_min, b.exponent_max)
     grid = GaussianDiracBasis.build(exps, -1, b.balance, c).grid(nucleus)
     bases, spectra, systems = {}, {}, {}
     for kappa in _kappa_order(cfg):
+        _starting(bar, f"{'reduced basis, ' if reference is None else ''}kappa {kappa:+d}")
         bases[kappa], spectra[kappa], systems[kappa] = solve_kappa_gaussian(
             kappa, exps, nucleus, b.balance, grid, b.overlap_threshold, spectra.get(-kappa), c, _for(reference, kappa))
+        _finished(bar)
     return _solution(cfg, nucleus, None, bases, spectra, systems, gauss_grid=grid, c=c)
