@@ -169,12 +169,17 @@ def parse_slater(text: str) -> tuple[int, tuple[str, str, str, str]]:
     return k, labels
 
 
-def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=()) -> Path:
+def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), allow_large: bool = False) -> Path:
     """Write the solution to ``path`` (.h5/.hdf5: HDF5; .npz: numpy archive + .json sidecar).
 
-    ``blocks``: integral blocks ("dipole", "hyperfine"); ``slater``: (k, (a, b, c, d)) with
-    state labels, each stored as R^k(ab, cd).
+    ``grid``: radii (bohr, increasing, positive, inside the cavity) at which P and Q are stored
+    (default: the quadrature points); ``blocks``: integral blocks ("dipole", "hyperfine");
+    ``slater``: (k, (a, b, c, d)) with state labels, each stored as R^k(ab, cd).  An export whose
+    estimated size or time exceeds the limits of :mod:`relbasis.budget` is refused unless
+    ``allow_large``.
     """
+    from . import budget
+
     blocks = tuple(blocks)
     bad = [b for b in blocks if b not in BLOCKS]
     if bad:
@@ -182,6 +187,11 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=()) -
     if "slater" in blocks and not slater:
         raise InputError("--with slater: say which integrals with --slater K:A,B,C,D (e.g. 0:1s1/2,1s1/2,1s1/2,1s1/2)")
     target = check_target(path, force)
+    if grid is not None:
+        grid = _checked_grid(grid, sol)
+    est = budget.export_estimate(sol.config, None if grid is None else grid.size, blocks)
+    budget.check(est, "the export" if grid is None else f"the export on {grid.size} radii", allow_large,
+                 "allow_large=True")
     data = _payload(sol, grid, blocks, tuple(slater))
     if target.suffix in (".h5", ".hdf5"):
         atomic_write(target, lambda tmp: _write_h5(tmp, data), "write the basis file")
@@ -192,6 +202,21 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=()) -
                        lambda tmp: Path(tmp).write_text(json.dumps(meta, indent=1), encoding="utf-8"))],
                      "write the basis file")
     return target
+
+
+def _checked_grid(grid, sol) -> np.ndarray:
+    """The output radii as a 1-D float array, or a one-line error naming what is wrong."""
+    try:
+        r = np.asarray(grid, dtype=float)
+    except (TypeError, ValueError):
+        raise InputError("grid: give the radii (bohr) as a sequence of numbers") from None
+    if r.ndim != 1 or r.size < 2:
+        raise InputError(f"grid: give at least two radii in a flat sequence (got shape {r.shape})")
+    if not np.all(np.isfinite(r)) or r[0] <= 0 or np.any(np.diff(r) <= 0):
+        raise InputError("grid: the radii must be finite, positive and strictly increasing (bohr)")
+    if sol.splines is not None and r[-1] > sol.splines.r_max:
+        raise InputError(f"grid: the last radius {r[-1]:g} lies beyond the cavity radius r_max = {sol.splines.r_max:g} bohr")
+    return r
 
 
 def _write_h5(tmp: str, data: dict) -> None:

@@ -9,6 +9,7 @@ import io
 import json
 import time
 
+import numpy as np
 import pytest
 
 import relbasis
@@ -179,3 +180,34 @@ def test_texts():
     assert budget.size_text(2.5e13) == "25 TB" and budget.size_text(737e6) == "737 MB"
     assert budget.time_text(3 * 3600) == "3 h" and budget.time_text(0.2) == "under a second"
     assert Estimate(25e9, 3 * 3600, 8, 40000).text() == "about 25 GB of memory and 3 h for 8 symmetries"
+
+
+@pytest.mark.parametrize("grid, says", [
+    ([], "at least two"),
+    ([1.0], "at least two"),
+    ([[0.1, 0.2], [0.3, 0.4]], "flat"),
+    ([0.1, float("nan"), 1.0], "finite"),
+    ([0.0, 0.5, 1.0], "positive"),
+    ([0.5, 0.2, 1.0], "increasing"),
+    ([0.1, 1e6], "beyond the cavity"),
+    (["a", "b"], "numbers"),
+])
+def test_python_export_checks_its_grid(tmp_path, grid, says):
+    """relbasis.export(sol, path, grid=...) refuses a bad grid in one line, before writing."""
+    import relbasis
+
+    sol = relbasis.solve(ion={"Z": 10, "nucleus": "point"}, basis={"size": 30}, solve={"kappas": [-1]})
+    with pytest.raises(InputError, match=says):
+        relbasis.export(sol, tmp_path / "b.h5", grid=grid)
+    assert not list(tmp_path.iterdir())
+
+
+def test_python_export_refuses_a_huge_grid_at_once(tmp_path):
+    import relbasis
+    from relbasis.budget import BudgetError
+
+    sol = relbasis.solve(ion={"Z": 10, "nucleus": "point"}, basis={"size": 30}, solve={"kappas": [-1]})
+
+    with pytest.raises(BudgetError, match="allow_large"):  # 3e6 radii x 53 roots x 2 x 8 bytes = 2.5 GB
+        relbasis.export(sol, tmp_path / "b.h5", grid=np.geomspace(1e-6, 1.0, 3_000_000))
+    assert not list(tmp_path.iterdir())
