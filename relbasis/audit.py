@@ -30,7 +30,7 @@ import scipy.linalg as sl
 from . import __version__
 from .analytic import orbital_l
 from .angular import dipole_partners, reduced_c
-from .config import DEFAULT_CAVITY
+from .config import DEFAULT_CAVITY, MAX_SIZE
 from .solver import Solution, as_config, solve
 
 STATUSES = ("pass", "warn", "fail")
@@ -300,8 +300,15 @@ def _resized(sol: Solution, size: int) -> Solution | None:
     cfg = sol.config.to_dict()
     if isinstance(cfg["basis"].get("knots"), list) or cfg["basis"].get("exponents") is not None:
         return None
+    if size > MAX_SIZE:
+        return None
     cfg["basis"]["size"] = size
-    return solve(cfg)
+    return solve(cfg, c=sol.c, allow_large=True)  # the audited basis itself passed the work limits
+
+
+def comparison_size(size: int) -> int:
+    """The size the convergence check compares with: 10 more, or 10 fewer at the size cap."""
+    return size + 10 if size + 10 <= MAX_SIZE else size - 10
 
 
 def convergence_series(result: "Audit", sizes=None) -> dict:
@@ -313,7 +320,7 @@ def convergence_series(result: "Audit", sizes=None) -> dict:
     b = sol.config.basis
     minimum = (b.order + 4) if b.family == "bspline" else 6
     sizes = sizes or [s for s in range(b.size - 40, b.size + 1, 10) if s >= minimum]
-    reference = None if (sol.nucleus.model == "point" and sol.nucleus.Z > 0) else _resized(sol, b.size + 10)
+    reference = None if (sol.nucleus.model == "point" and sol.nucleus.Z > 0) else _resized(sol, comparison_size(b.size))
     series = {}
     for size in sizes:
         other = sol if size == b.size else _resized(sol, size)
@@ -524,11 +531,12 @@ def audit(config=None, *, max_n: int = 5, target: float = 1e-8, **overrides) -> 
     reference = None
     point = sol.nucleus.model == "point" and sol.nucleus.Z > 0
     conv = {}
+    other_size = comparison_size(cfg.basis.size)
     if not point:
-        reference = _resized(sol, cfg.basis.size + 10)
+        reference = _resized(sol, other_size)
     errs = _level_errors(sol, max_n, reference)
     worst = max(errs.values(), default=0.0)
-    against = "the exact Dirac–Coulomb levels" if point else f"a basis of size {cfg.basis.size + 10}"
+    against = "the exact Dirac–Coulomb levels" if point else f"a basis of size {other_size}"
     status = _grade(worst, target, 1e-6) if errs or sol.nucleus.Z == 0 else "fail"
     checks.append(Check("convergence", status, worst, target,
                         f"worst relative change of the bound levels n <= {max_n} against {against}"

@@ -276,7 +276,7 @@ def _cmd_export(args) -> int:
 
     slater = [parse_slater(s) for s in (args.slater or [])]
     path = export(sol, args.out, force=args.force, grid=grid, blocks=blocks, slater=slater,
-                  allow_large=args.allow_large)
+                  allow_large=args.allow_large, progress=args.progress)
     total = sum(len(sol[k]) for k in sol.kappas)
     print(f"wrote {path}: {total} roots in {len(sol.kappas)} symmetries" + (f", blocks {', '.join(blocks)}" if blocks else ""))
     print(f"ion: {ion_line(sol.nucleus)}")

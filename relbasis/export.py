@@ -20,6 +20,7 @@ from pathlib import Path
 
 import h5py
 import numpy as np
+from tqdm import tqdm
 
 from . import __version__, constants
 from .bspline import BSplineBasis
@@ -81,9 +82,12 @@ def _written_by_us(p: Path) -> bool:
         return False
 
 
-def _payload(sol, grid: np.ndarray | None, blocks, slater=()) -> dict:
-    """Everything the file holds, as plain numbers, strings and arrays."""
+def _payload(sol, grid: np.ndarray | None, blocks, slater=(), bar=None) -> dict:
+    """Everything the file holds, as plain numbers, strings and arrays (``bar``: a tqdm bar,
+    advanced once per symmetry and per integral block of a pair or symmetry)."""
     from . import integrals
+
+    tick = bar.update if bar is not None else (lambda n=1: None)
 
     cfg = sol.config
     top = {
@@ -126,6 +130,7 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=()) -> dict:
             for i, f in enumerate(basis.families):
                 arrays[f"{g}/family_{i}_splines"] = f.splines
             top[f"{g}/balance_radius"] = basis.families[0].balance_radius
+        tick()
     if "dipole" in blocks:  # every E1-connected pair once, rows: roots of ka, columns: roots of kb
         for ka in sol.kappas:
             for kb in sol.kappas:
@@ -134,9 +139,11 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=()) -> dict:
                     arrays[f"integrals/dipole/{ka}_{kb}/radial_length"] = d["radial"]
                     arrays[f"integrals/dipole/{ka}_{kb}/radial_velocity"] = integrals.dipole_velocity(sol, ka, kb)
                     top[f"integrals/dipole/{ka}_{kb}/angular"] = d["angular"]
+                    tick()
     if "hyperfine" in blocks:  # int P_a Q_b / r^2 dr within each symmetry
         for kappa in sol.kappas:
             arrays[f"integrals/hyperfine/{kappa}_{kappa}"] = integrals.hyperfine(sol, kappa, kappa)
+            tick()
     if slater:
         rows, values = [], []
         for k, labels in slater:
@@ -169,14 +176,16 @@ def parse_slater(text: str) -> tuple[int, tuple[str, str, str, str]]:
     return k, labels
 
 
-def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), allow_large: bool = False) -> Path:
+def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), allow_large: bool = False,
+           progress: bool | None = None) -> Path:
     """Write the solution to ``path`` (.h5/.hdf5: HDF5; .npz: numpy archive + .json sidecar).
 
     ``grid``: radii (bohr, increasing, positive, inside the cavity) at which P and Q are stored
     (default: the quadrature points); ``blocks``: integral blocks ("dipole", "hyperfine");
     ``slater``: (k, (a, b, c, d)) with state labels, each stored as R^k(ab, cd).  An export whose
     estimated size or time exceeds the limits of :mod:`relbasis.budget` is refused unless
-    ``allow_large``.
+    ``allow_large``.  ``progress``: a bar on stderr (None: when the export is estimated to take
+    more than a couple of seconds and stderr is a terminal).
     """
     from . import budget
 
@@ -192,7 +201,12 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), a
     est = budget.export_estimate(sol.config, None if grid is None else grid.size, blocks)
     budget.check(est, "the export" if grid is None else f"the export on {grid.size} radii", allow_large,
                  "allow_large=True")
-    data = _payload(sol, grid, blocks, tuple(slater))
+    own = budget.Estimate(est.memory, est.seconds - budget.solve_estimate(sol.config).seconds, est.symmetries, est.rows)
+    steps = len(sol.kappas) * (1 + ("hyperfine" in blocks)) + ("dipole" in blocks) * sum(
+        1 for a in sol.kappas for b in sol.kappas if a < b and _e1(a, b))
+    with tqdm(total=steps, desc="export", unit="block", disable=not budget.show_progress(own, progress),
+              leave=False) as bar:
+        data = _payload(sol, grid, blocks, tuple(slater), bar)
     if target.suffix in (".h5", ".hdf5"):
         atomic_write(target, lambda tmp: _write_h5(tmp, data), "write the basis file")
     else:  # .npz and its sidecar: both staged, then renamed, so that they always belong together
@@ -202,6 +216,12 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), a
                        lambda tmp: Path(tmp).write_text(json.dumps(meta, indent=1), encoding="utf-8"))],
                      "write the basis file")
     return target
+
+
+def _e1(ka: int, kb: int) -> bool:
+    from .integrals import reduced_c
+
+    return reduced_c(1, kb, ka) != 0
 
 
 def _checked_grid(grid, sol) -> np.ndarray:

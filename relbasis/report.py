@@ -39,6 +39,7 @@ def check_target(path, force: bool) -> Path:
 
 def write_report(result, path, force: bool, series: dict) -> Path:
     """audit.json, spectrum.png and convergence.png in ``path`` (staged, then renamed together)."""
+    from .audit import comparison_size
     from .plots import convergence_figure, spectrum_figure
 
     target = check_target(path, force)
@@ -46,7 +47,7 @@ def write_report(result, path, force: bool, series: dict) -> Path:
     doc["convergence"] = {label: [[s, float(e)] for s, e in pts] for label, pts in series.items()}
     sol = result.solution
     against = "exact Dirac–Coulomb levels" if (sol.nucleus.model == "point" and sol.nucleus.Z > 0) \
-        else f"a basis of size {sol.config.basis.size + 10}"
+        else f"a basis of size {comparison_size(sol.config.basis.size)}"
     title = f"Z = {sol.nucleus.Z:g}: bound levels n <= {result.max_n} against {against}"
     with directory_for(target, "--report"):
         atomic_group([

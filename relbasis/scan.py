@@ -105,6 +105,11 @@ class Plan:
                           "target": self.target, "reference": self.reference}}
 
 
+MAX_UNITS = 10_000
+"""Most units a plan may have (the product of its axes): each unit is a whole solve, and the
+plan is validated unit by unit before any runs; a real convergence scan has tens to hundreds."""
+
+
 def _axis_values(key: str, value) -> tuple:
     if isinstance(value, dict):
         unknown = set(value) - {"from", "to", "step"}
@@ -113,7 +118,12 @@ def _axis_values(key: str, value) -> tuple:
         lo, hi, step = value["from"], value["to"], value.get("step", 1)
         if not all(isinstance(x, numbers.Real) and not isinstance(x, bool) for x in (lo, hi, step)) or step <= 0:
             raise ConfigError(f"axes.{key!r}: from, to and a positive step must be numbers")
+        if not all(math.isfinite(x) for x in (lo, hi, step)):
+            raise ConfigError(f"axes.{key!r}: from, to and step must be finite numbers")
         count = int(math.floor((hi - lo) / step + 1e-9)) + 1
+        if count > MAX_UNITS:  # before the list is made: a range can name a billion values
+            raise ConfigError(f"axes.{key!r}: the range from {lo} to {hi} in steps of {step} has {count} values; "
+                              f"a plan may have at most {MAX_UNITS} units: use a larger step")
         vals = [lo + i * step for i in range(max(count, 0))]
         if all(isinstance(x, int) for x in (lo, hi, step)):
             vals = [int(v) for v in vals]
@@ -153,6 +163,10 @@ def plan_from_dict(data: dict, allow_large: bool = False) -> Plan:
         if name not in _KEYS[sec]:
             raise ConfigError(f"axes: unknown key {key!r}{_suggest(name, _KEYS[sec])}; valid in [{sec}]: {', '.join(_KEYS[sec])}")
         axes.append((key, _axis_values(key, value)))
+    total = math.prod(len(v) for _, v in axes)
+    if total > MAX_UNITS:
+        raise ConfigError(f"axes: the plan has {total} units ({' x '.join(str(len(v)) for _, v in axes)}); "
+                          f"at most {MAX_UNITS} are allowed: use fewer values per axis")
     track = data.get("track")
     if not isinstance(track, dict):
         raise ConfigError("[track] is missing: give states = [\"1s1/2\", ...] or max_n = 4, and a target")

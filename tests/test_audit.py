@@ -194,3 +194,11 @@ def test_audit_uses_the_solution_speed_of_light():
     result = audit(sol)
     assert result.check("kinetic-balance").status == "pass"
     assert result.verdict == "pass", [(c.name, c.status) for c in result.checks if c.status != "pass"]
+
+
+def test_audit_of_a_finite_nucleus_at_large_c_compares_with_the_same_c():
+    """The convergence check solves a larger basis with the solution's own c (it used 1/alpha:
+    a false difference of order (Z alpha)^2)."""
+    sol = relbasis.solve(ion={"Z": 50, "nucleus": "fermi"}, solve={"kappas": [-1, 1]}, c=1e4)
+    check = {c.name: c for c in audit(sol).checks}["convergence"]
+    assert check.status == "pass" and check.value < 1e-10

@@ -66,3 +66,22 @@ def test_a_good_plan_still_validates_quickly():
                                  "basis.order": [7, 9]}, base={"ion": {"nucleus": "fermi"}}))
     assert len(scanmod.units(plan)) == 40
     assert time.perf_counter() - t0 < 3.0
+
+
+@pytest.mark.parametrize("axes, says", [
+    ({"basis.size": {"from": 30, "to": 1_000_000_000, "step": 1}}, "at most"),
+    ({"basis.size": {"from": 30, "to": 130}, "basis.order": {"from": 5, "to": 15},
+      "basis.r_max": {"from": 20, "to": 40}}, "units"),
+    ({"basis.r_max": {"from": 20.0, "to": float("inf"), "step": 1.0}}, "finite"),
+])
+def test_a_plan_too_large_is_refused_before_it_is_expanded(axes, says):
+    """A range of a billion values is refused from its bounds, in well under a second."""
+    import time
+
+    from relbasis.scan import plan_from_dict
+
+    t0 = time.perf_counter()
+    with pytest.raises(InputError, match=says):
+        plan_from_dict({"base": {"ion": {"Z": 10, "nucleus": "point"}}, "axes": axes,
+                        "track": {"states": ["1s1/2"]}})
+    assert time.perf_counter() - t0 < 1.0
