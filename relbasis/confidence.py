@@ -25,11 +25,10 @@ A level whose estimate exceeds :data:`CONFIDENCE_THRESHOLD` gets the flag ``unco
 
 from __future__ import annotations
 
-from dataclasses import replace
-
 import numpy as np
 
 from .analytic import orbital_l
+from .families import ORIGIN_FACTOR, family_of, reduction  # noqa: F401  (ORIGIN_FACTOR, reduction: public here too)
 
 CONFIDENCE_THRESHOLD = 1e-9
 """Largest estimated relative error of a level printed as plainly bound.  For B-splines the
@@ -38,60 +37,10 @@ bound levels are within about 1e-9 of the exact level of the stated model; for G
 fall short up to 25 times (plainly bound rows measured up to 1.4e-9)."""
 
 
-ORIGIN_FACTOR = 4.0
-"""For a point nucleus the reduced basis also starts its knots this much further out, so that
-an error from too coarse a grid at the origin (P ~ r^gamma, gamma small at high Z) shows in the
-estimate."""
-
-
-def reduction(size: int) -> int:
-    """Functions dropped for the reduced basis: a tenth of the size, at least 4."""
-    return max(4, size // 10)
-
-
 def reduced_config(config):
-    """The resolved config of the reduced basis (None where none can be made).
-
-    B-splines: ``size`` lowered by :func:`reduction` (same knot rule, r_min, r_max, order);
-    explicit breakpoints: every fifth interior breakpoint removed.  Gaussians: even-tempered
-    sets lose their most diffuse exponent and two functions (a point nucleus also its tightest); explicit exponents lose every fifth one.
-    """
-    b = config.basis
-    if b.family == "bspline":
-        if isinstance(b.knots, tuple):
-            pts = list(b.knots)
-            inner = pts[1:-1]
-            keep = [x for j, x in enumerate(inner) if j % 5 != 2]
-            if len(keep) == len(inner) or len(keep) < 1:
-                return None
-            knots = (pts[0], *keep, pts[-1])
-            size = len(knots) - 1 + b.order - 1
-            if size < b.order + 4:
-                return None
-            return replace(config, basis=replace(b, knots=knots, size=size))
-        size = b.size - reduction(b.size)
-        if size < b.order + 4:
-            return None
-        r_min = b.r_min
-        if config.ion.nucleus == "point" and float(config.ion.Z) > 0:
-            r_min = min(b.r_min * ORIGIN_FACTOR, b.r_max / 1e3)  # a point nucleus: r^gamma needs the first knot
-        return replace(config, basis=replace(b, size=size, r_min=r_min))
-    if b.exponents is not None:
-        ex = [x for j, x in enumerate(b.exponents) if j % 5 != 2]
-        if len(ex) < 4 or len(ex) == len(b.exponents):
-            return None
-        return replace(config, basis=replace(b, exponents=tuple(ex), size=len(ex)))
-    if b.size < 6:
-        return None
-    ratio = (b.exponent_max / b.exponent_min) ** (1.0 / (b.size - 1))
-    # the set without its most diffuse and its tightest member: what either end holds shows (the
-    # diffuse end for Rydberg levels and RKB kappa > 0, the tight end for the origin of a point nucleus)
-    # (two fewer functions over the remaining range, so that the spacing coarsens too); the tight
-    # end is cut only for a point nucleus, whose r^gamma origin no Gaussian set resolves
-    point = config.ion.nucleus == "point"
-    size = b.size - (3 if point else 2)
-    return replace(config, basis=replace(b, size=size, exponent_min=b.exponent_min * ratio,
-                                         exponent_max=b.exponent_max / ratio if point else b.exponent_max))
+    """The resolved config of the reduced basis (None where none can be made): the family's
+    own rule (:meth:`relbasis.families.BasisFamily.reduced`)."""
+    return family_of(config).reduced(config)
 
 
 def judge(eps: float, reference: float | None, cavity: float) -> tuple[float, list[str]]:

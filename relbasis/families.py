@@ -1,0 +1,164 @@
+"""The registry of basis families: one object per family that says what differs between them.
+
+Everything downstream of the solver (confidence, audit, export, cli) asks the family object of
+a resolved config, ``family_of(config)``, instead of branching on the family's name; a new
+family adds a subclass here and its own basis module, and touches nothing else.
+
+A family object is stateless: its methods take the resolved :class:`~relbasis.config.BasisSpec`
+(``spec``) and, where needed, the quadrature grid (r, w) of a solution.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+
+ORIGIN_FACTOR = 4.0
+"""For a point nucleus the reduced B-spline basis also starts its knots this much further out, so
+that an error from too coarse a grid at the origin (P ~ r^gamma, gamma small at high Z) shows in
+the estimate."""
+
+
+def reduction(size: int) -> int:
+    """Functions dropped for the reduced B-spline basis: a tenth of the size, at least 4."""
+    return max(4, size // 10)
+
+
+class BasisFamily:
+    """What the code downstream needs to know about a family (subclasses fill it in)."""
+
+    name: str = ""
+    has_wall: bool = False
+    """True if the functions end at a cavity wall r_max (the cavity-limited levels move with it)."""
+    balance_advice: str = "dkb"
+    """The balance to suggest when the spectrum has spurious roots."""
+    edge_words: tuple[str, str] = ("", "")
+    """How :meth:`edge_fractions` measures (near the origin, far out), for the audit's text."""
+
+    def minimum_size(self, spec) -> int:
+        """Fewest functions per component that make a sensible basis of this family."""
+        raise NotImplementedError
+
+    def resizable(self, spec) -> bool:
+        """True if ``size`` alone defines the set (no explicit knots or exponents)."""
+        raise NotImplementedError
+
+    def reduced(self, config):
+        """The resolved config of the reduced basis of the error estimate, or None."""
+        raise NotImplementedError
+
+    def edge_fractions(self, spec, r: np.ndarray, dens: np.ndarray, exponents=None):
+        """Share of the norm density ``dens`` (grid points x roots, weights applied) near the
+        origin and far out, as the family measures its reach: (first, last) per root."""
+        raise NotImplementedError
+
+    def cavity_fix(self, spec, factor: float = 1.5) -> str:
+        """Advice that gives the far-out states more room."""
+        raise NotImplementedError
+
+
+class BSplineFamily(BasisFamily):
+    """B-splines on a knot sequence in [0, r_max]: a hard wall at the cavity radius."""
+
+    name = "bspline"
+    has_wall = True
+    balance_advice = "dkb"
+    edge_words = ("in the first three knot intervals", "in the last three knot intervals")
+
+    def minimum_size(self, spec) -> int:
+        return int(spec.order) + 4
+
+    def resizable(self, spec) -> bool:
+        return not isinstance(spec.knots, tuple)
+
+    def reduced(self, config):
+        """``size`` lowered by :func:`reduction` (same knot rule, r_min, r_max, order); for a point
+        nucleus the first knot also moves out by ORIGIN_FACTOR; explicit breakpoints: every fifth
+        interior breakpoint removed."""
+        b = config.basis
+        if isinstance(b.knots, tuple):
+            pts = list(b.knots)
+            inner = pts[1:-1]
+            keep = [x for j, x in enumerate(inner) if j % 5 != 2]
+            if len(keep) == len(inner) or len(keep) < 1:
+                return None
+            knots = (pts[0], *keep, pts[-1])
+            size = len(knots) - 1 + b.order - 1
+            if size < b.order + 4:
+                return None
+            return replace(config, basis=replace(b, knots=knots, size=size))
+        size = b.size - reduction(b.size)
+        if size < b.order + 4:
+            return None
+        r_min = b.r_min
+        if config.ion.nucleus == "point" and float(config.ion.Z) > 0:
+            r_min = min(b.r_min * ORIGIN_FACTOR, b.r_max / 1e3)  # a point nucleus: r^gamma needs the first knot
+        return replace(config, basis=replace(b, size=size, r_min=r_min))
+
+    def edge_fractions(self, spec, r, dens, exponents=None):
+        nq = int(spec.quadrature)
+        return dens[: 3 * nq].sum(axis=0), dens[-3 * nq:].sum(axis=0)
+
+    def cavity_fix(self, spec, factor: float = 1.5) -> str:
+        return f"raise r_max to {factor * spec.r_max:.4g} bohr"
+
+
+class GaussianFamily(BasisFamily):
+    """Gaussians r^(l+1) exp(-zeta r^2) of given or even-tempered exponents: no wall; the most
+    diffuse exponent sets the reach, the tightest the resolution near the nucleus."""
+
+    name = "gaussian"
+    has_wall = False
+    balance_advice = "rkb or dkb"
+    edge_words = ("inside 1/sqrt(zeta_max), the reach of the tightest Gaussian",
+                  "beyond 3/sqrt(zeta_min), the reach of the most diffuse Gaussian")
+
+    def minimum_size(self, spec) -> int:
+        return 6
+
+    def resizable(self, spec) -> bool:
+        return spec.exponents is None
+
+    def reduced(self, config):
+        """Even-tempered sets lose their most diffuse exponent and two functions (a point
+        nucleus also its tightest); explicit exponents lose every fifth one."""
+        b = config.basis
+        if b.exponents is not None:
+            ex = [x for j, x in enumerate(b.exponents) if j % 5 != 2]
+            if len(ex) < 4 or len(ex) == len(b.exponents):
+                return None
+            return replace(config, basis=replace(b, exponents=tuple(ex), size=len(ex)))
+        if b.size < 6:
+            return None
+        ratio = (b.exponent_max / b.exponent_min) ** (1.0 / (b.size - 1))
+        # the set without its most diffuse and its tightest member: what either end holds shows (the
+        # diffuse end for Rydberg levels and RKB kappa > 0, the tight end for the origin of a point nucleus)
+        # (two fewer functions over the remaining range, so that the spacing coarsens too); the tight
+        # end is cut only for a point nucleus, whose r^gamma origin no Gaussian set resolves
+        point = config.ion.nucleus == "point"
+        size = b.size - (3 if point else 2)
+        return replace(config, basis=replace(b, size=size, exponent_min=b.exponent_min * ratio,
+                                             exponent_max=b.exponent_max / ratio if point else b.exponent_max))
+
+    def edge_fractions(self, spec, r, dens, exponents=None):
+        ex = np.asarray(exponents if exponents is not None else spec.exponents, dtype=float)
+        first = dens[r < 1 / np.sqrt(ex.max())].sum(axis=0)
+        last = dens[r > 3 / np.sqrt(ex.min())].sum(axis=0)
+        return first, last
+
+    def cavity_fix(self, spec, factor: float = 10.0) -> str:
+        zmin = spec.exponent_min if spec.exponents is None else min(spec.exponents)
+        return f"lower exponent_min to {zmin / factor:.3g}"
+
+
+REGISTRY: dict[str, BasisFamily] = {f.name: f for f in (BSplineFamily(), GaussianFamily())}
+"""Every family by its config name (``[basis] family``)."""
+
+
+def family_of(config_or_spec) -> BasisFamily:
+    """The family object of a config, a basis spec or a family name."""
+    name = config_or_spec if isinstance(config_or_spec, str) else getattr(
+        getattr(config_or_spec, "basis", config_or_spec), "family")
+    return REGISTRY[name]
