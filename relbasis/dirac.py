@@ -47,8 +47,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .bspline import BSplineBasis, QuadratureTable
+from .bspline import BSplineBasis, QuadratureTable, exponential_knots, knots_from_breakpoints, log_linear_knots
 from .errors import InputError
+from .sampling import channel_names
 
 BALANCES = ("none", "dkb")
 WALLS = ("dirichlet", "bag")
@@ -192,27 +193,45 @@ class DiracBasis:
 
     def local_channels(self, table: QuadratureTable) -> "LocalChannels":
         """(P, Q, D+P, D-Q) of the functions on every interval of the table, for reuse."""
-        P, Q, DP, DQ, idx = self._local(table)
-        return LocalChannels(P, Q, DP, DQ, idx)
+        return self.sample(table)
 
-    def matrices(self, table: QuadratureTable, potential: np.ndarray, local: LocalChannels | None = None):
-        """H and S (dense, size x size) with V given at the table's points, shape (n_int, nq).
+    def sample(self, table: QuadratureTable) -> "LocalChannels":
+        """The functions on the quadrature table (the family's sampled form, for the Hamiltonian
+        terms and for evaluating roots)."""
+        P, Q, DP, DQ, idx = self._local(table)
+        return LocalChannels(P, Q, DP, DQ, idx, table.r.ravel(), table.w.ravel(), self.size)
+
+    def kinetic_and_overlap(self, local: "LocalChannels"):
+        """T (kinetic and rest mass, with the wall term) and S, dense (size x size).
 
         Local assembly: on each knot interval only k splines per family are non-zero, so the
         integrals are (2k x 2k) blocks per interval, summed into the global matrices.
         """
-        local = local or self.local_channels(table)
         P, Q, DP, idx = local.P, local.Q, local.DP, local.index
-        w = table.w[..., None]
+        w = local.w.reshape(P.shape[:2])[..., None]
         wP, wQ = w * P, w * Q
         S_loc = _bt(wP, P) + _bt(wQ, Q)
         cross = _bt(wQ, DP)
-        H_loc = _bt(potential[..., None] * wP, P) + _bt((potential[..., None] - 2 * self.c**2) * wQ, Q)
-        H_loc += self.c * (cross + cross.transpose(0, 2, 1))
+        T_loc = -2 * self.c**2 * _bt(wQ, Q) + self.c * (cross + cross.transpose(0, 2, 1))
         n = self.size
-        H = _scatter(H_loc, idx, n) + self.wall_matrix()
-        S = _scatter(S_loc, idx, n)
-        return H, S
+        return _scatter(T_loc, idx, n) + self.wall_matrix(), _scatter(S_loc, idx, n)
+
+    def local_matrix(self, term, local: "LocalChannels") -> np.ndarray:
+        """int V (fP gP + fQ gQ) dr of a local term, on the quadrature (interval by interval)."""
+        V = np.asarray(term.potential(local.r), dtype=float).reshape(local.P.shape[:2])[..., None]
+        w = local.w.reshape(local.P.shape[:2])[..., None]
+        V_loc = _bt(V * w * local.P, local.P) + _bt(V * w * local.Q, local.Q)
+        return _scatter(V_loc, local.index, self.size)
+
+    def matrices(self, table: QuadratureTable, potential: np.ndarray, local: LocalChannels | None = None):
+        """H and S (dense, size x size) with a local potential V given at the table's points,
+        shape (n_int, nq): T + V (:mod:`relbasis.hamiltonian` assembles the general sum)."""
+        local = local or self.sample(table)
+        T, S = self.kinetic_and_overlap(local)
+        V = np.asarray(potential, dtype=float)
+        w = local.w.reshape(local.P.shape[:2])[..., None]
+        V_loc = _bt(V[..., None] * w * local.P, local.P) + _bt(V[..., None] * w * local.Q, local.Q)
+        return T + _scatter(V_loc, local.index, self.size), S
 
 
 @dataclass(frozen=True)
@@ -224,10 +243,15 @@ class LocalChannels:
     DP: np.ndarray
     DQ: np.ndarray
     index: np.ndarray  # (n_int, slots), -1 where the spline is removed
+    r: np.ndarray | None = None  # the quadrature points, flat (n_int * nq)
+    w: np.ndarray | None = None  # and their weights
+    size: int | None = None  # rows of H
 
-    def dense(self, channel: str, size: int) -> np.ndarray:
-        """One channel ("P", "Q" or "D") as a dense (n_int * nq, size) matrix of the basis functions."""
-        M = {"P": self.P, "Q": self.Q, "D": self.DP, "M": self.DQ}[channel]
+    def dense(self, channel: str, size: int | None = None) -> np.ndarray:
+        """One component ("P", "Q", "DP", "DQ"; or the letters "D", "M" for the last two) as a
+        dense (n_int * nq, size) matrix of the basis functions."""
+        size = self.size if size is None else size
+        M = getattr(self, channel_names(channel)[0])
         n_int, nq, slots = M.shape
         out = np.zeros((n_int * nq, size))
         rows = np.broadcast_to(np.arange(n_int * nq).reshape(n_int, nq, 1), M.shape)
@@ -236,14 +260,13 @@ class LocalChannels:
         np.add.at(out, (rows[keep], cols[keep]), M[keep])
         return out
 
-    def evaluate(self, coefficients: np.ndarray, channels: str = "PQD"):
-        """Channels ("P", "Q", "D" = D+P, "M" = D-Q) of the functions with the given coefficients
-        (rows x m): (n_int * nq, m) each."""
+    def evaluate(self, coefficients: np.ndarray, channels=("P", "Q", "DP")):
+        """Components (names "P", "Q", "DP" = D+P, "DQ" = D-Q, or a string of the letters
+        P, Q, D, M) of the functions with the given coefficients (rows x m): (n_int * nq, m) each."""
         m = coefficients.shape[1]
         coef = np.where((self.index >= 0)[..., None], coefficients[np.maximum(self.index, 0)], 0.0)
         shape = (self.P.shape[0] * self.P.shape[1], m)
-        chans = {"P": self.P, "Q": self.Q, "D": self.DP, "M": self.DQ}
-        return tuple(np.matmul(chans[ch], coef).reshape(shape) for ch in channels)
+        return tuple(np.matmul(getattr(self, ch), coef).reshape(shape) for ch in channel_names(channels))
 
 
 def _bt(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -259,3 +282,98 @@ def _scatter(local: np.ndarray, idx: np.ndarray, n: int) -> np.ndarray:
     flat = (ia * n + ib)[mask]
     out = np.bincount(flat, weights=local[mask], minlength=n * n)
     return out.reshape(n, n)
+
+
+@dataclass(frozen=True)
+class SplineSet:
+    """Everything one solve shares across symmetries for the B-spline family: the spline set,
+    its quadrature tables and how the pipeline of :mod:`relbasis.solver` treats it."""
+
+    splines: BSplineBasis
+    table: QuadratureTable
+    coarse: QuadratureTable  # one point per interval: enough to count nodes and fix signs
+    balance: str
+    c: float
+    point_charge: float  # Z for a point nucleus (the balance factor g), else 0
+    wall: str = "dirichlet"
+    threshold: float | None = None
+
+    @property
+    def grid(self) -> tuple[np.ndarray, np.ndarray]:
+        return self.table.r.ravel(), self.table.w.ravel()
+
+    @property
+    def wall_radius(self) -> float:
+        return self.splines.r_max
+
+    def build(self, kappa: int) -> DiracBasis:
+        return DiracBasis.build(self.splines, kappa, self.balance, self.c, self.point_charge, self.wall)
+
+    def sample(self, basis: DiracBasis) -> "LocalChannels":
+        return basis.sample(self.table)
+
+    def node_matrix(self, basis: DiracBasis, sampled) -> np.ndarray:
+        """P of every function on the coarse table (points x size), for the node count and signs."""
+        return basis.sample(self.coarse).dense("P")
+
+    def band_order(self, basis: DiracBasis):
+        return basis.band_order()
+
+    def cause(self) -> str:
+        """What a non-finite number of a solve points to (relbasis.finite)."""
+        t = self.splines.knots
+        r_min = float(t[t > 0][0]) if np.any(t > 0) else float("nan")
+        return (f"the basis (r_min = {r_min:g}, r_max = {self.splines.r_max:g} bohr, {self.splines.size} splines, "
+                f"c = {self.c:g}) lies outside what double precision represents; see the valid ranges in docs/config.md")
+
+
+FERMI_SURFACE_KNOTS = (-6, -4, -2, -1, 0, 1, 2, 4, 6)
+"""Breakpoints at c + k a (k listed) for a Fermi nucleus: one knot per skin width otherwise."""
+
+
+def build_splines(config, nucleus) -> BSplineBasis:
+    """The B-spline set of a resolved config (a relbasis.config.Config), with knots where the
+    nucleus (a relbasis.nucleus.Nucleus) needs them.
+
+    Uniform sphere: the potential has a jump in V'' at its radius R, so P and Q have a jump in
+    their third derivative there; a knot of multiplicity k - 3 at R (C^2 splines) lets the basis
+    follow it: the Z = 92 levels improve from 1e-9 to 1e-14 against the shooting solution.
+    Fermi nucleus: breakpoints across the surface, at c + k a for k in FERMI_SURFACE_KNOTS; the
+    levels do not need them, but the hyperfine integral, weighted by 1/r^2, converges with size
+    only with them (Z = 92: to 1e-10 instead of stalling near 1e-7; docs/integrals.md).
+    In both cases the sequence is built with correspondingly fewer splines, so that ``size``
+    keeps its meaning.
+    """
+    b = config.basis
+    if isinstance(b.knots, tuple):
+        return BSplineBasis(knots_from_breakpoints(b.knots, b.order), b.order)
+    R = nucleus.radius_bohr
+    sphere = nucleus.model == "sphere" and b.r_min < R < b.r_max
+    surface = []
+    if nucleus.model == "fermi" and nucleus.fermi_c_bohr is not None:
+        c, a = nucleus.fermi_c_bohr, nucleus.fermi_a_bohr
+        surface = [c + k * a for k in FERMI_SURFACE_KNOTS if b.r_min < c + k * a < b.r_max]
+    extra = max(b.order - 4, 0) if sphere else len(surface)
+    if b.size - extra < b.order + 4:
+        extra, sphere, surface = 0, False, []
+
+    def base(size):
+        if b.knots == "exponential":
+            return exponential_knots(size, b.order, b.r_min, b.r_max)
+        return log_linear_knots(size, b.order, b.r_min, b.r_max, b.r_scale)
+
+    t = base(b.size - extra)
+    if sphere and extra:
+        x = np.unique(t)
+        j = int(np.argmin(np.abs(x[1:-1] - R))) + 1
+        x[j] = R
+        t = np.sort(np.concatenate([knots_from_breakpoints(np.unique(x), b.order), np.full(extra, R)]))
+    elif surface:
+        for _ in range(2):  # a surface point on an existing knot adds no spline: make up for it once
+            merged = knots_from_breakpoints(np.unique(np.concatenate([np.unique(t), surface])), b.order)
+            missing = b.size - (merged.size - b.order)
+            if missing == 0:
+                break
+            t = base(t.size - b.order + missing)
+        t = merged
+    return BSplineBasis(t, b.order)

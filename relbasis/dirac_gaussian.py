@@ -31,6 +31,7 @@ from .analytic import orbital_l
 from .errors import InputError
 from .gaussian import GaussPoly, coulomb, gauss_nucleus, overlap, radial_grid
 from .nucleus import Nucleus
+from .sampling import DenseChannels
 
 BALANCES = ("none", "rkb", "dkb")
 
@@ -117,8 +118,14 @@ class GaussianDiracBasis:
         rows = [np.concatenate([integral(f, g) for g in self.families], axis=1) for f in self.families]
         return np.concatenate(rows, axis=0)
 
-    def matrices(self, nucleus: Nucleus, grid=None):
-        """H and S; the potential term in closed form (point, gauss) or on ``grid`` (r, w)."""
+    def sample(self, grid) -> DenseChannels:
+        """The functions on the quadrature grid (r, w): the family's sampled form."""
+        r, w = grid
+        P, Q, DP, DQ = self.components(r)
+        return DenseChannels(np.asarray(r, dtype=float), np.asarray(w, dtype=float), P, Q, DP, DQ)
+
+    def kinetic_and_overlap(self, sampled=None):
+        """T (kinetic and rest mass) and S in closed form (the sampled functions are not needed)."""
         c = self.c
 
         def s_block(f, g):
@@ -127,9 +134,20 @@ class GaussianDiracBasis:
         def t_block(f, g):  # everything but the potential
             return -2 * c * c * overlap(f.Q, g.Q) + c * (overlap(f.Q, g.DP) + overlap(f.DP, g.Q))
 
-        S = self._blocks(s_block)
-        H = self._blocks(t_block) + self.potential_matrix(nucleus, grid)
-        return H, S
+        return self._blocks(t_block), self._blocks(s_block)
+
+    def local_matrix(self, term, sampled) -> np.ndarray:
+        """int V (fP gP + fQ gQ) dr of a local term: in closed form for a point or Gaussian
+        nucleus (the term's source), else on the sampled grid."""
+        if isinstance(term.source, Nucleus) and term.source.model in ("point", "gauss"):
+            return self.potential_matrix(term.source)
+        wV = (sampled.w * term.potential(sampled.r))[:, None]
+        return sampled.P.T @ (wV * sampled.P) + sampled.Q.T @ (wV * sampled.Q)
+
+    def matrices(self, nucleus: Nucleus, grid=None):
+        """H and S; the potential term in closed form (point, gauss) or on ``grid`` (r, w)."""
+        T, S = self.kinetic_and_overlap()
+        return T + self.potential_matrix(nucleus, grid), S
 
     def potential_matrix(self, nucleus: Nucleus, grid=None) -> np.ndarray:
         Z = nucleus.Z
@@ -154,3 +172,34 @@ class GaussianDiracBasis:
             cf, af = nucleus.fermi_c_bohr, nucleus.fermi_a_bohr
             breaks = tuple(x for x in (cf - 4 * af, cf - 2 * af, cf, cf + 2 * af, cf + 4 * af, cf + 8 * af) if x > 0)
         return radial_grid(self.exponents, breaks)
+
+
+@dataclass(frozen=True)
+class GaussianSet:
+    """Everything one solve shares across symmetries for the Gaussian family: the exponents,
+    the radial grid and how the pipeline of :mod:`relbasis.solver` treats them."""
+
+    exponents: np.ndarray
+    grid: tuple
+    balance: str
+    c: float
+    threshold: float | None = None
+    wall_radius = None  # no cavity wall
+
+    def build(self, kappa: int) -> GaussianDiracBasis:
+        return GaussianDiracBasis.build(self.exponents, kappa, self.balance, self.c)
+
+    def sample(self, basis: GaussianDiracBasis) -> DenseChannels:
+        return basis.sample(self.grid)
+
+    def node_matrix(self, basis, sampled) -> np.ndarray:
+        return sampled.P
+
+    def band_order(self, basis):
+        return None  # dense functions: no band structure
+
+    def cause(self) -> str:
+        return (f"the Gaussian exponents {float(np.min(self.exponents)):.3g}..{float(np.max(self.exponents)):.3g} "
+                f"bohr^-2 (c = {self.c:g}) lie outside what double precision represents; see the valid ranges in "
+                "docs/config.md")
+

@@ -58,6 +58,12 @@ class BasisFamily:
         """Advice that gives the far-out states more room."""
         raise NotImplementedError
 
+    def build_set(self, config, nucleus, c: float):
+        """The per-solve set of this family: ``grid`` (r, w), ``wall_radius`` (None without a
+        wall), ``threshold``, ``build(kappa)`` -> per-kappa basis, ``sample(basis)``,
+        ``node_matrix(basis, sampled)``, ``band_order(basis)``, ``cause()``."""
+        raise NotImplementedError
+
 
 class BSplineFamily(BasisFamily):
     """B-splines on a knot sequence in [0, r_max]: a hard wall at the cavity radius."""
@@ -103,6 +109,15 @@ class BSplineFamily(BasisFamily):
 
     def cavity_fix(self, spec, factor: float = 1.5) -> str:
         return f"raise r_max to {factor * spec.r_max:.4g} bohr"
+
+    def build_set(self, config, nucleus, c: float):
+        """What a solve of a resolved config shares across symmetries (:class:`relbasis.dirac.SplineSet`)."""
+        from .dirac import SplineSet, build_splines
+
+        b = config.basis
+        splines = build_splines(config, nucleus)
+        return SplineSet(splines, splines.quadrature(b.quadrature), splines.quadrature(1), b.balance, c,
+                         float(nucleus.Z) if nucleus.model == "point" else 0.0, b.wall, b.overlap_threshold)
 
 
 class GaussianFamily(BasisFamily):
@@ -151,6 +166,19 @@ class GaussianFamily(BasisFamily):
     def cavity_fix(self, spec, factor: float = 10.0) -> str:
         zmin = spec.exponent_min if spec.exponents is None else min(spec.exponents)
         return f"lower exponent_min to {zmin / factor:.3g}"
+
+    def build_set(self, config, nucleus, c: float):
+        """What a solve of a resolved config shares across symmetries (:class:`relbasis.dirac_gaussian.GaussianSet`)."""
+        from .dirac_gaussian import GaussianDiracBasis, GaussianSet
+        from .eigen import DEFAULT_THRESHOLD
+        from .gaussian import even_tempered
+
+        b = config.basis
+        exps = (np.asarray(b.exponents, dtype=float) if b.exponents is not None
+                else even_tempered(b.size, b.exponent_min, b.exponent_max))
+        grid = GaussianDiracBasis.build(exps, -1, b.balance, c).grid(nucleus)
+        threshold = b.overlap_threshold if b.overlap_threshold is not None else DEFAULT_THRESHOLD
+        return GaussianSet(exps, grid, b.balance, c, threshold)
 
 
 REGISTRY: dict[str, BasisFamily] = {f.name: f for f in (BSplineFamily(), GaussianFamily())}

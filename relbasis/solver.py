@@ -27,6 +27,8 @@ from .finite import check_matrices, check_roots
 from . import budget
 from .nucleus import Nucleus
 from .confidence import reduced_config
+from .families import family_of
+from . import hamiltonian
 from .precision import EDGE_MARGIN, POLISH_SHARE, isolated, lost, near_edge, precision_flags, settle_edge, with_flags
 from .spectrum import Spectrum, classify, duplicate_roots, examined, gap
 
@@ -45,23 +47,31 @@ class Solution:
     table: QuadratureTable | None = field(default=None, repr=False)  # B-splines: the Gauss–Legendre table
     gauss_grid: tuple | None = field(default=None, repr=False)  # Gaussians: (r, w)
     c: float = C  # speed of light used (1/alpha unless a nonrelativistic-limit check asked otherwise)
+    sampled: dict = field(default_factory=dict, repr=False)  # kappa -> the basis functions on the quadrature
+    terms: tuple[str, ...] = ("kinetic", "rest-mass", "nucleus")  # names of the Hamiltonian's parts
+    family_set: object = field(default=None, repr=False)  # the family's per-solve set (relbasis.families)
 
     @property
     def grid(self) -> tuple[np.ndarray, np.ndarray]:
         """Radial quadrature points and weights (r, w) on which the functions are examined."""
+        if self.family_set is not None:
+            return self.family_set.grid
         if self.table is not None:
             return self.table.r.ravel(), self.table.w.ravel()
         return self.gauss_grid
 
-    def sample(self, kappa: int, roots=None, channels: str = "PQDM") -> tuple[np.ndarray, ...]:
-        """P, Q, D+P, D-Q (any of "PQDM") of the chosen roots of kappa on :attr:`grid`."""
-        spec, basis = self.spectra[kappa], self.bases[kappa]
+    def sample(self, kappa: int, roots=None, channels="PQDM") -> tuple[np.ndarray, ...]:
+        """Components of the chosen roots of kappa on :attr:`grid`: names "P", "Q", "DP" (D+P),
+        "DQ" (D-Q), or a string of the letters P, Q, D, M (relbasis.sampling)."""
+        spec = self.spectra[kappa]
         vec = spec.vectors if roots is None else spec.vectors[:, roots]
-        if self.table is not None:
-            return basis.local_channels(self.table).evaluate(vec, channels)
-        names = {"P": "P", "Q": "Q", "D": "DP", "M": "DQ"}
-        mats = basis.components(self.grid[0], tuple(names[ch] for ch in channels))
-        return tuple(m @ vec for m in mats)
+        return self.functions(kappa).evaluate(vec, channels)
+
+    def functions(self, kappa: int):
+        """The basis functions of kappa sampled on the quadrature (relbasis.sampling)."""
+        if kappa not in self.sampled:  # a Solution made by hand, without its sampled functions
+            self.sampled[kappa] = self.family_set.sample(self.bases[kappa])
+        return self.sampled[kappa]
 
     @property
     def kappas(self) -> tuple[int, ...]:
@@ -142,55 +152,31 @@ def as_config(config=None, **overrides) -> Config:
     return from_dict(data)
 
 
-FERMI_SURFACE_KNOTS = (-6, -4, -2, -1, 0, 1, 2, 4, 6)
-"""Breakpoints at c + k a (k listed) for a Fermi nucleus: one knot per skin width otherwise."""
+def solve_symmetry(fset, kappa: int, terms, partner: Spectrum | None = None,
+                   reference: dict[int, float] | None = None):
+    """Basis, H from its terms, roots, refinement and sorting of one symmetry, in any family.
 
-
-def build_splines(config: Config, nucleus: Nucleus) -> BSplineBasis:
-    """The B-spline set of a resolved config, with knots where the nucleus needs them.
-
-    Uniform sphere: the potential has a jump in V'' at its radius R, so P and Q have a jump in
-    their third derivative there; a knot of multiplicity k - 3 at R (C^2 splines) lets the basis
-    follow it: the Z = 92 levels improve from 1e-9 to 1e-14 against the shooting solution.
-    Fermi nucleus: breakpoints across the surface, at c + k a for k in FERMI_SURFACE_KNOTS; the
-    levels do not need them, but the hyperfine integral, weighted by 1/r^2, converges with size
-    only with them (Z = 92: to 1e-10 instead of stalling near 1e-7; docs/integrals.md).
-    In both cases the sequence is built with correspondingly fewer splines, so that ``size``
-    keeps its meaning.
+    ``fset`` is the family's per-solve set (:meth:`relbasis.families.BasisFamily.build_set`),
+    ``terms`` the potential terms of the Hamiltonian (:mod:`relbasis.hamiltonian`).  Returns
+    (basis, spectrum, eigensystem, sampled functions).
     """
-    b = config.basis
-    if isinstance(b.knots, tuple):
-        return BSplineBasis(knots_from_breakpoints(b.knots, b.order), b.order)
-    R = nucleus.radius_bohr
-    sphere = nucleus.model == "sphere" and b.r_min < R < b.r_max
-    surface = []
-    if nucleus.model == "fermi" and nucleus.fermi_c_bohr is not None:
-        c, a = nucleus.fermi_c_bohr, nucleus.fermi_a_bohr
-        surface = [c + k * a for k in FERMI_SURFACE_KNOTS if b.r_min < c + k * a < b.r_max]
-    extra = max(b.order - 4, 0) if sphere else len(surface)
-    if b.size - extra < b.order + 4:
-        extra, sphere, surface = 0, False, []
-
-    def base(size):
-        if b.knots == "exponential":
-            return exponential_knots(size, b.order, b.r_min, b.r_max)
-        return log_linear_knots(size, b.order, b.r_min, b.r_max, b.r_scale)
-
-    t = base(b.size - extra)
-    if sphere and extra:
-        x = np.unique(t)
-        j = int(np.argmin(np.abs(x[1:-1] - R))) + 1
-        x[j] = R
-        t = np.sort(np.concatenate([knots_from_breakpoints(np.unique(x), b.order), np.full(extra, R)]))
-    elif surface:
-        for _ in range(2):  # a surface point on an existing knot adds no spline: make up for it once
-            merged = knots_from_breakpoints(np.unique(np.concatenate([np.unique(t), surface])), b.order)
-            missing = b.size - (merged.size - b.order)
-            if missing == 0:
-                break
-            t = base(t.size - b.order + missing)
-        t = merged
-    return BSplineBasis(t, b.order)
+    basis = fset.build(kappa)
+    sampled = fset.sample(basis)
+    H, S = hamiltonian.assemble(basis, sampled, terms)
+    cause = fset.cause()
+    check_matrices(kappa, H, S, cause)
+    r, w = sampled.r, sampled.w
+    system, moved = _roots(H, S, eigensolve(H, S, fset.threshold), fset.c,
+                           lambda v: sampled.evaluate(v, ("P", "Q")), w, fset.band_order(basis))
+    check_roots(kappa, system.energies, system.vectors, system.error, cause)
+    window = examined(system.energies, fset.c)
+    P_all = fset.node_matrix(basis, sampled) @ system.vectors
+    P, Q, DP = sampled.evaluate(system.vectors[:, window], ("P", "Q", "DP"))
+    external = duplicate_roots(kappa, system.energies, partner)
+    V = hamiltonian.local_potential(terms, r)
+    spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, w, V, fset.c, external,
+                    r=r, wall=fset.wall_radius, reference=reference)
+    return basis, with_flags(spec, precision_flags(system, moved)), system, sampled
 
 
 def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np.ndarray, balance: str,
@@ -355,22 +341,18 @@ def _finished(bar):
 
 def _solve_resolved(cfg: Config, nucleus: Nucleus, c: float, reference: dict | None, bar=None) -> Solution:
     """The spectra of a resolved config; ``reference`` (kappa -> {n: eps}) feeds the estimates."""
-    if cfg.basis.family == "gaussian":
-        return _solve_gaussian(cfg, nucleus, c, reference, bar)
-    splines = build_splines(cfg, nucleus)
-    table = splines.quadrature(cfg.basis.quadrature)
-    V = nucleus.potential(table.r)
-    coarse = splines.quadrature(1)
-    point_charge = float(nucleus.Z) if nucleus.model == "point" else 0.0
-    bases, spectra = {}, {}
-    systems = {}
+    fset = family_of(cfg).build_set(cfg, nucleus, c)
+    terms = (hamiltonian.nucleus_term(nucleus),)
+    bases, spectra, systems, sampled = {}, {}, {}, {}
     for kappa in _kappa_order(cfg):
         _starting(bar, f"{'reduced basis, ' if reference is None else ''}kappa {kappa:+d}")
-        bases[kappa], spectra[kappa], systems[kappa] = solve_kappa(
-            kappa, splines, table, V, cfg.basis.balance, point_charge, spectra.get(-kappa), coarse,
-            cfg.basis.overlap_threshold, cfg.basis.wall, c, _for(reference, kappa))
+        bases[kappa], spectra[kappa], systems[kappa], sampled[kappa] = solve_symmetry(
+            fset, kappa, terms, spectra.get(-kappa), _for(reference, kappa))
         _finished(bar)
-    return _solution(cfg, nucleus, splines, bases, spectra, systems, table=table, c=c)
+    return Solution(cfg, nucleus, getattr(fset, "splines", None), bases, spectra,
+                    {k: s.dropped for k, s in systems.items()}, {k: s.condition for k, s in systems.items()},
+                    getattr(fset, "table", None), None if hasattr(fset, "table") else fset.grid, c,
+                    sampled, hamiltonian.names(terms), fset)
 
 
 def _for(reference: dict | None, kappa: int) -> dict[int, float] | None:
@@ -380,23 +362,3 @@ def _for(reference: dict | None, kappa: int) -> dict[int, float] | None:
 def _kappa_order(cfg: Config):
     """Negative kappas first: the duplicate-level check of kappa > 0 looks at -kappa."""
     return sorted(cfg.solve.kappas, key=lambda k: (k > 0, abs(k)))
-
-
-def _solution(cfg, nucleus, splines, bases, spectra, systems: dict[int, Eigensystem], table=None,
-              gauss_grid=None, c: float = C) -> Solution:
-    return Solution(cfg, nucleus, splines, bases, spectra,
-                    {k: s.dropped for k, s in systems.items()}, {k: s.condition for k, s in systems.items()},
-                    table, gauss_grid, c)
-
-
-def _solve_gaussian(cfg: Config, nucleus: Nucleus, c: float = C, reference: dict | None = None, bar=None) -> Solution:
-    b = cfg.basis
-    exps = np.asarray(b.exponents) if b.exponents is not None else even_tempered(b.size, b.exponent_min, b.exponent_max)
-    grid = GaussianDiracBasis.build(exps, -1, b.balance, c).grid(nucleus)
-    bases, spectra, systems = {}, {}, {}
-    for kappa in _kappa_order(cfg):
-        _starting(bar, f"{'reduced basis, ' if reference is None else ''}kappa {kappa:+d}")
-        bases[kappa], spectra[kappa], systems[kappa] = solve_kappa_gaussian(
-            kappa, exps, nucleus, b.balance, grid, b.overlap_threshold, spectra.get(-kappa), c, _for(reference, kappa))
-        _finished(bar)
-    return _solution(cfg, nucleus, None, bases, spectra, systems, gauss_grid=grid, c=c)

@@ -158,7 +158,7 @@ def _poison(method, where):
 
 @pytest.mark.parametrize("where,name", [("H", "Hamiltonian"), ("S", "overlap matrix")])
 def test_nan_in_assembled_bspline_matrices_is_named(monkeypatch, where, name):
-    monkeypatch.setattr(DiracBasis, "matrices", _poison(DiracBasis.matrices, where))
+    monkeypatch.setattr(DiracBasis, "kinetic_and_overlap", _poison(DiracBasis.kinetic_and_overlap, where))
     with pytest.raises(NonFiniteError) as info:
         relbasis.solve(None, **SMALL)
     msg = str(info.value)
@@ -167,7 +167,7 @@ def test_nan_in_assembled_bspline_matrices_is_named(monkeypatch, where, name):
 
 
 def test_nan_in_assembled_gaussian_matrices_is_named(monkeypatch):
-    monkeypatch.setattr(GaussianDiracBasis, "matrices", _poison(GaussianDiracBasis.matrices, "H"))
+    monkeypatch.setattr(GaussianDiracBasis, "kinetic_and_overlap", _poison(GaussianDiracBasis.kinetic_and_overlap, "H"))
     with pytest.raises(NonFiniteError, match="Hamiltonian of kappa -1 .* Gaussian exponents"):
         relbasis.solve(ion={"Z": 10, "nucleus": "gauss"}, basis={"family": "gaussian", "size": 12},
                        solve={"kappas": [-1]})
@@ -189,7 +189,7 @@ def test_non_finite_roots_after_the_eigen_solve_are_named(monkeypatch, field):
 
 
 def test_non_finite_result_on_the_command_line_is_one_line(monkeypatch, capsys):
-    monkeypatch.setattr(DiracBasis, "matrices", _poison(DiracBasis.matrices, "H"))
+    monkeypatch.setattr(DiracBasis, "kinetic_and_overlap", _poison(DiracBasis.kinetic_and_overlap, "H"))
     rc = main(["levels", "--z", "10", "--size", "20", "--kappas", "-1"])
     out, err = capsys.readouterr()
     assert rc == 2 and out == "" and err.count("\n") == 1 and "non-finite" in err
