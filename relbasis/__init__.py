@@ -21,7 +21,8 @@ for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
 from .config import Config, BasisSpec, IonSpec, SolveSpec, from_dict as config_from_dict, load as load_config  # noqa: E402
 from .errors import InputError  # noqa: E402
 from .solver import Solution, solve  # noqa: E402
-from .export import export, load  # noqa: E402
+from .writer import export  # noqa: E402
+from .reader import load  # noqa: E402
 from .critical import CriticalCharge, critical_charge  # noqa: E402
 
 __all__ = ["__version__", "solve", "Solution", "Config", "IonSpec", "BasisSpec", "SolveSpec",

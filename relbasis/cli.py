@@ -262,17 +262,17 @@ def _cmd_scan(args) -> int:
 
 
 def _cmd_export(args) -> int:
-    from .export import export
+    from .writer import export
 
     blocks = tuple(b for b in (args.with_ or "").replace(" ", "").split(",") if b)
-    from .export import check_target
+    from .writer import check_target
 
     check_target(args.out, args.force)  # before the solve: a refusal costs nothing
     spec = _parse_grid(args.grid) if args.grid is not None else None
     _check_export_work(args, spec, blocks)  # before the solve and before any array is made
     grid = np.geomspace(*spec) if spec is not None else None
     sol = _solution(args)
-    from .export import parse_slater
+    from .writer import parse_slater
 
     slater = [parse_slater(s) for s in (args.slater or [])]
     path = export(sol, args.out, force=args.force, grid=grid, blocks=blocks, slater=slater,

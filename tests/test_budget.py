@@ -121,7 +121,7 @@ def test_estimates_follow_the_model():
 
 def test_export_file_estimate_is_close_to_the_file(tmp_path):
     """The file-size estimate of a small export against the file written (HDF5)."""
-    from relbasis.export import export
+    from relbasis.writer import export
 
     sol = relbasis.solve(ion={"Z": 20}, basis={"size": 30}, solve={"kappas": [-1, 1, -2]})
     est = budget.export_estimate(sol.config, None, ("dipole", "hyperfine"))

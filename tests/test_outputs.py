@@ -317,9 +317,9 @@ def test_injected_failures_at_the_first_write(tmp_path, capsys, monkeypatch, com
 
     monkeypatch.setattr(outputs.tempfile, "mkstemp", refuse)
     monkeypatch.setattr(os, "mkdir", refuse)
-    import relbasis.scan
+    import relbasis.scan.store
 
-    monkeypatch.setattr(relbasis.scan.os, "open", refuse)
+    monkeypatch.setattr(relbasis.scan.store.os, "open", refuse)
     line = _run_hostile(capsys, tmp_path, d, command)
     assert errno.errorcode[code] in line
 

@@ -49,7 +49,7 @@ def test_a_default_out_of_range_in_one_unit():
 
 def test_nothing_runs_when_a_unit_is_bad(tmp_path, monkeypatch, capsys):
     ran = []
-    monkeypatch.setattr(scanmod, "run_unit", lambda config: ran.append(config))
+    monkeypatch.setattr(scanmod.run, "run_unit", lambda config: ran.append(config))
     plan = tmp_path / "plan.toml"
     plan.write_text('[base.ion]\nZ = 30\n[axes]\n"basis.r_min" = [1e-6, 1e-7, 1e-300]\n[track]\nmax_n = 2\n')
     rc = main(["scan", str(plan), "--out", str(tmp_path / "out"), "--quiet"])

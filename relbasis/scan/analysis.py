@@ -1,0 +1,119 @@
+"""The analysis of a scan: convergence tables per tracked state, rates, and the smallest basis
+meeting the target."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+
+from .. import __version__
+from ..analytic import dirac_coulomb_energy
+from .plan import Plan, Unit, parse_label
+
+
+def _ion_key(unit: Unit) -> str:
+    return json.dumps(unit.config["ion"], sort_keys=True)
+
+
+def _size(rec: dict) -> int:
+    return int(rec["resolved_basis"]["size"])
+
+
+def fit_rate(sizes, errors) -> dict | None:
+    """Observed convergence in size: exponential err ~ exp(-a N) or algebraic err ~ N^-p,
+    whichever straight-line fit (log err against N, or against log N) leaves less residual."""
+    pts = [(n, e) for n, e in zip(sizes, errors) if e is not None and e > 1e-15]
+    if len(pts) < 3:
+        return None
+    n = np.array([p[0] for p in pts], dtype=float)
+    y = np.log(np.array([p[1] for p in pts]))
+    fits = {}
+    for kind, x in (("exponential", n), ("power", np.log(n))):
+        A = np.vstack([x, np.ones_like(x)]).T
+        coef, res, *_ = np.linalg.lstsq(A, y, rcond=None)
+        resid = float(np.sum((A @ coef - y) ** 2))
+        fits[kind] = (resid, -float(coef[0]))
+    kind = min(fits, key=lambda k: fits[k][0])
+    rate = fits[kind][1]
+    text = (f"error ~ exp(-{rate:.3g} N): x{math.exp(10 * rate):.3g} per 10 functions" if kind == "exponential"
+            else f"error ~ N^-{rate:.3g}")
+    return {"form": kind, "rate": rate, "text": text, "points": len(pts)}
+
+
+def analyse(plan: Plan, everything: list[Unit], records: dict[str, dict]) -> dict:
+    """Convergence tables per tracked state, rates, and the smallest basis meeting the target."""
+    done = [(u, records[u.key]) for u in everything if u.key in records]
+    groups: dict[str, list] = {}
+    for u, rec in done:
+        groups.setdefault(_ion_key(u), []).append((u, rec))
+    labels = sorted({lab for _, rec in done for lab in rec["levels"]
+                     if plan.tracked(lab, parse_label(lab)[0])}, key=lambda s: (parse_label(s)[0], s))
+    references = {}
+    for gk, members in groups.items():
+        ion = json.loads(gk)
+        point = members[0][1]["nucleus"] == "point" and members[0][1]["Z"] > 0
+        use_exact = plan.reference == "exact" or (plan.reference == "auto" and point)
+        largest = max(members, key=lambda m: (_size(m[1]), m[1]["resolved_basis"].get("order") or 0))
+        refs = {}
+        for lab in labels:
+            if use_exact:
+                n, kappa = parse_label(lab)
+                refs[lab] = {"energy": dirac_coulomb_energy(members[0][1]["Z"], n, kappa), "source": "exact Dirac–Coulomb"}
+            elif lab in largest[1]["levels"]:
+                refs[lab] = {"energy": largest[1]["levels"][lab], "source": f"largest basis {largest[0].settings}",
+                             "unit": largest[0].key}
+        references[gk] = {"ion": ion, "states": refs}
+    states = {}
+    for lab in labels:
+        rows = []
+        for u, rec in done:
+            ref = references[_ion_key(u)]["states"].get(lab)
+            e = rec["levels"].get(lab)
+            err = None if (e is None or ref is None) else abs(e / ref["energy"] - 1)
+            rows.append({"settings": u.settings, "ion": u.config["ion"], "basis": u.config["basis"],
+                         "size": _size(rec), "spurious_roots": rec.get("spurious", 0), "energy_hartree": e,
+                         "reference_hartree": None if ref is None else ref["energy"], "relative_error": err,
+                         "is_reference": ref is not None and ref.get("unit") == u.key})
+        keyed = sorted(((_row_series(r), r["size"], i) for i, r in enumerate(rows)))
+        rows = [rows[i] for _, _, i in keyed]
+        by_series: dict[str, list] = {}
+        for (sk, _, _), r in zip(keyed, rows):
+            if not r["is_reference"]:
+                by_series.setdefault(sk, []).append((r["size"], r["relative_error"]))
+        rates = []
+        for sk, pts in by_series.items():
+            fit = fit_rate([p[0] for p in pts], [p[1] for p in pts])
+            if fit:
+                rates.append({"series": json.loads(sk), **fit})
+        states[lab] = {"rows": rows, "rates": rates}
+    return {"relbasis": __version__, "plan": plan.to_dict(), "target": plan.target, "units": len(everything),
+            "finished": len(done), "references": list(references.values()), "states": states,
+            "recommended": _recommend(plan, states)}
+
+
+def _row_series(row: dict) -> str:
+    """Everything but the size: the rows along one line of a convergence picture."""
+    basis = {k: v for k, v in row["basis"].items() if k != "size"}
+    return json.dumps({"ion": row["ion"], "basis": basis}, sort_keys=True)
+
+
+def _recommend(plan: Plan, states) -> dict | None:
+    """The smallest basis (fewest functions; then the smaller worst error) meeting the target for every tracked state
+    of every ion of the scan; a unit serving as the reference is no evidence for itself."""
+    verdict: dict[str, dict] = {}
+    for st in states.values():
+        for row in st["rows"]:
+            bk = json.dumps(row["basis"], sort_keys=True)
+            cand = verdict.setdefault(bk, {"basis": row["basis"], "size": row["size"], "ok": True, "worst": 0.0})
+            err = row["relative_error"]
+            if row["is_reference"] or err is None or err > plan.target or row["spurious_roots"]:
+                cand["ok"] = False  # a basis with spurious roots is not recommended, however accurate
+            if err is not None:
+                cand["worst"] = max(cand["worst"], err)
+    good = [c for c in verdict.values() if c["ok"]]
+    if not good:
+        return None
+    best = min(good, key=lambda c: (c["size"], c["worst"]))
+    return {"basis": best["basis"], "size": best["size"], "worst_relative_error": best["worst"]}

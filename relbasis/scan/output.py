@@ -1,0 +1,134 @@
+"""The output folder of a scan: which files in it are the scan's own (:func:`claim_folder`), the
+analysis written there (summary.json, convergence.csv, one picture per state) and its printed form.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import re
+from pathlib import Path
+
+from ..errors import InputError
+from ..outputs import atomic_text, atomic_write, read_manifest
+
+
+_PICTURE = re.compile(r"^error_[0-9a-z_]+\.png$")
+OUTPUT_KIND = "scan"
+FIXED_OUTPUTS = ("results.jsonl", "summary.json", "convergence.csv")
+
+
+def _looks_like_results(path: Path) -> bool:
+    """A results store of relbasis (written before folders carried a manifest): every whole line a record."""
+    try:
+        with path.open("r", encoding="utf-8") as fh:
+            lines = fh.read().splitlines()
+    except (OSError, UnicodeDecodeError):
+        return False
+    records = 0
+    for i, line in enumerate(lines):
+        try:
+            rec = json.loads(line)
+        except json.JSONDecodeError:
+            if i == len(lines) - 1:
+                continue  # a line cut short by an interruption
+            return False
+        if not (isinstance(rec, dict) and "key" in rec and "config" in rec and "levels" in rec):
+            return False
+        records += 1
+    return records > 0
+
+
+def claim_folder(out: Path) -> set[str]:
+    """Check that the scan may write into ``out``; returns the names a scan wrote there before.
+
+    A scan folder is resumed: its results store is appended to, and its analysis (summary,
+    table, pictures: all derived from the store, so nothing is lost) is rewritten for the plan
+    at hand.  A file relbasis did not write is never replaced.
+    """
+    manifest = read_manifest(out)
+    ours = {name for name, kind in manifest.items() if kind == OUTPUT_KIND}
+    if not ours and (out / "results.jsonl").is_file() and _looks_like_results(out / "results.jsonl"):
+        # a folder written before manifests existed: its results store says it is a scan folder
+        ours = {p.name for p in out.iterdir() if p.is_file() and p.name not in manifest
+                and (p.name in FIXED_OUTPUTS or _PICTURE.match(p.name))}
+    present = [p.name for p in out.iterdir() if p.name in FIXED_OUTPUTS or _PICTURE.match(p.name)]
+    foreign = sorted(n for n in present if n not in ours or not (out / n).is_file() or (out / n).is_symlink())
+    if foreign:
+        raise InputError(f"--out {str(out)!r} holds {foreign[0]!r}, which relbasis did not write there: it is never "
+                         f"replaced; move it or choose another folder")
+    return ours
+
+
+def _picture_name(label: str) -> str:
+    return "error_" + re.sub(r"[^0-9a-z]", "_", label) + ".png"
+
+
+def write_outputs(out: Path, summary: dict, jobs: int = 1, ours=frozenset()) -> set[str]:
+    """summary.json, convergence.csv and one PNG per tracked state, each written atomically
+    under a unique temporary name; returns the names written.  A name that exists and is not in
+    ``ours`` (what relbasis wrote there before) is refused, not replaced.  The pictures are drawn
+    by ``jobs`` processes, as matplotlib's text and lines take time."""
+    pictures = {lab: _picture_name(lab) for lab in summary["states"]}
+    for name in (*FIXED_OUTPUTS[1:], *pictures.values()):
+        p = out / name
+        if (p.exists() or p.is_symlink()) and name not in ours:
+            raise InputError(f"--out {str(out)!r} holds {name!r}, which relbasis did not write there: it is never "
+                             f"replaced; move it and run the scan again (its results are kept)")
+    atomic_text(out / "summary.json", json.dumps(summary, indent=1, sort_keys=True), "write the scan summary")
+    lines = []
+    for lab, st in summary["states"].items():
+        for r in st["rows"]:
+            lines.append({"state": lab, **{k: v for k, v in r["settings"].items()}, "size": r["size"],
+                          "energy_hartree": r["energy_hartree"], "reference_hartree": r["reference_hartree"],
+                          "relative_error": r["relative_error"], "is_reference": r["is_reference"]})
+    fields = []
+    for line in lines:
+        for k in line:
+            if k not in fields:
+                fields.append(k)
+
+    def write_csv(tmp):
+        with open(tmp, "w", newline="", encoding="utf-8") as fh:
+            w = csv.DictWriter(fh, fieldnames=fields)
+            w.writeheader()
+            w.writerows(lines)
+
+    atomic_write(out / "convergence.csv", write_csv, "write the convergence table")
+    from joblib import Parallel, delayed
+
+    Parallel(n_jobs=jobs)(delayed(_picture)(lab, st, summary["target"], out / pictures[lab])
+                          for lab, st in summary["states"].items())
+    return {"summary.json", "convergence.csv", *pictures.values()}
+
+
+def _picture(label: str, state: dict, target: float, path: Path) -> None:
+    from ..plots import scan_figure
+
+    atomic_write(path, lambda tmp: scan_figure(label, state, target, tmp), "write the picture")
+
+
+def summary_table(summary: dict) -> str:
+    """The printed form of a scan's analysis."""
+    lines = [f"scan: {summary['finished']} of {summary['units']} units finished; target {summary['target']:g}"]
+    for lab, st in summary["states"].items():
+        lines.append("")
+        lines.append(f"{lab}")
+        lines.append(f"  {'settings':<48} {'size':>5} {'energy (hartree)':>22} {'rel. error':>10}")
+        for r in st["rows"]:
+            settings = ", ".join(f"{k.split('.', 1)[1]}={v}" for k, v in r["settings"].items())
+            err = "reference" if r["is_reference"] else ("-" if r["relative_error"] is None else f"{r['relative_error']:.2e}")
+            if r["spurious_roots"]:
+                err += f" ({r['spurious_roots']} spurious)"
+            e = "-" if r["energy_hartree"] is None else f"{r['energy_hartree']:.15g}"
+            lines.append(f"  {settings:<48} {r['size']:>5} {e:>22} {err:>10}")
+        for rate in st["rates"]:
+            where = ", ".join(f"{k}={v}" for k, v in sorted({**rate["series"]["ion"], **rate["series"]["basis"]}.items()))
+            lines.append(f"  rate ({where}): {rate['text']} ({rate['points']} points)")
+    rec = summary["recommended"]
+    lines.append("")
+    if rec is None:
+        lines.append("recommended: none of the bases meets the target for every tracked state")
+    else:
+        lines.append(f"recommended: {json.dumps(rec['basis'], sort_keys=True)} (worst error {rec['worst_relative_error']:.2e})")
+    return "\n".join(lines)

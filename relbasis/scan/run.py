@@ -1,0 +1,138 @@
+"""Running a scan: one unit in a worker (:func:`run_unit`), the units in joblib's process pool or on
+a dask.distributed cluster (:func:`_execute`), and the whole scan (:func:`scan`).
+"""
+
+from __future__ import annotations
+
+import re
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from ..errors import InputError
+from ..outputs import directory_for, write_manifest
+from .analysis import analyse
+from .output import _PICTURE, OUTPUT_KIND, claim_folder, write_outputs
+from .plan import Plan, Unit, check_units, load_plan, unit_key, units
+from .store import Store
+
+
+def run_unit(config: dict) -> dict:
+    """Solve one unit and return its record (runs in a worker process)."""
+    from ..solver import solve
+
+    t0 = time.perf_counter()
+    sol = solve(config, allow_large=True, progress=False)  # its work was checked with the plan (check_units)
+    levels = {}
+    spurious = 0
+    for kappa in sol.kappas:
+        spec = sol[kappa]
+        spurious += len(spec.indices("spurious"))
+        for e, n, lab in zip(spec.energies, spec.n, spec.labels):
+            if lab is not None:
+                levels[lab] = float(e)
+    return {"key": unit_key(config), "config": config, "levels": levels, "spurious": spurious,
+            "nucleus": sol.nucleus.model, "Z": float(sol.nucleus.Z),
+            "resolved_basis": sol.config.to_dict()["basis"], "seconds": time.perf_counter() - t0}
+
+
+@dataclass(frozen=True)
+class ScanResult:
+    plan: Plan
+    out: Path
+    total: int
+    computed: int
+    summary: dict = field(repr=False)
+
+
+def _execute(todo: list[Unit], jobs: int, scheduler: str | None, store: Store, progress: bool) -> int:
+    from joblib import Parallel, delayed, parallel_config
+    from tqdm import tqdm
+
+    if not todo:
+        return 0
+    calls = (delayed(run_unit)(u.config) for u in todo)
+    bar = tqdm(total=len(todo), desc="units", unit="unit", disable=not progress)
+    count = 0
+    try:
+        if scheduler:
+            try:
+                from distributed import Client
+            except ImportError:
+                raise InputError("--scheduler needs the 'cluster' extra: pip install 'relbasis[cluster]'") from None
+            try:
+                client = Client(scheduler, timeout="10s")
+            except (OSError, TimeoutError, ValueError, TypeError) as err:
+                reason = (str(err).splitlines() or [type(err).__name__])[0]
+                raise InputError(f"--scheduler {scheduler!r}: cannot reach the scheduler ({reason})") from None
+            try:
+                with parallel_config(backend="dask"):
+                    for rec in Parallel(return_as="generator_unordered")(calls):
+                        store.append(rec)
+                        count += 1
+                        bar.update()
+            finally:
+                client.close()
+        else:
+            for rec in Parallel(n_jobs=jobs, return_as="generator_unordered")(calls):
+                store.append(rec)
+                count += 1
+                bar.update()
+    finally:
+        bar.close()
+    return count
+
+
+SCHEDULER_ADDRESS = re.compile(r"^(?:(tcp|tls|ws|wss|ucx|inproc)://)?(\[[0-9a-fA-F:.]+\]|[A-Za-z0-9_.-]+):(\d{1,5})$")
+"""A dask.distributed scheduler address: [PROTOCOL://]HOST:PORT."""
+
+
+def check_scheduler(address: str) -> str:
+    """A scheduler address that dask.distributed can dial, or a one-line error saying what is."""
+    m = SCHEDULER_ADDRESS.match(address.strip()) if isinstance(address, str) else None
+    if m is None or not 0 < int(m.group(3)) < 65536:
+        raise InputError(f"--scheduler {address!r}: give the scheduler's address as [PROTOCOL://]HOST:PORT, "
+                         f"e.g. tcp://127.0.0.1:8786 (protocols tcp, tls, ws, wss, ucx, inproc)")
+    return address.strip()
+
+def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, progress: bool = True,
+         allow_large: bool = False) -> ScanResult:
+    """Run (or resume) a scan and write its analysis into ``out``.
+
+    Every unit is validated before the first runs (:func:`check_units`); ``allow_large`` lets
+    units beyond the work limits through.  ``out`` may hold other files: the scan writes only
+    results.jsonl, summary.json, convergence.csv, error_*.png and its manifest, and replaces
+    only files it wrote itself.
+    """
+    if isinstance(plan, Plan):
+        check_units(plan, allow_large)
+    else:
+        plan = load_plan(plan, allow_large)
+    if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs == 0 or jobs < -1:
+        raise InputError(f"--jobs {jobs!r}: give a positive number of processes (or -1 for all cores)")
+    if scheduler is not None:
+        scheduler = check_scheduler(scheduler)
+    out = Path(out)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"--out {str(out)!r} is a file, not a directory")
+    ours = claim_folder(out) if out.is_dir() else set()
+    with directory_for(out, "--out", parents=True):  # a folder made for nothing is taken back
+        write_manifest(out, OUTPUT_KIND, ours | {"results.jsonl"})  # before the first record lands
+    store = Store(out / "results.jsonl")
+    everything = units(plan)
+    done = store.load()
+    todo = [u for u in everything if u.key not in done]
+    try:
+        computed = _execute(todo, jobs, scheduler, store, progress)
+    finally:
+        store.sync()
+    records = store.load()
+    summary = analyse(plan, everything, records)
+    written = write_outputs(out, summary, jobs if not scheduler else 1, ours)
+    for stale in sorted(n for n in ours if _PICTURE.match(n) and n not in written):
+        try:  # a picture of a state this plan no longer tracks: ours, so it goes
+            (out / stale).unlink()
+        except OSError:
+            written.add(stale)  # still there: keep it on the record
+    write_manifest(out, OUTPUT_KIND, written | {"results.jsonl"})
+    return ScanResult(plan, out, len(everything), computed, summary)

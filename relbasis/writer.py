@@ -1,0 +1,247 @@
+"""Export a solved basis for a many-body code (HDF5, or .npz + JSON): ``relbasis.export``.
+
+The layout is ours and documented in docs/file-format.md ("relbasis-basis", layout version 1).
+Files are written under a unique temporary name in the target directory and renamed into place
+(:mod:`relbasis.outputs`); an existing file is replaced only with ``force`` and only if relbasis
+wrote it (its ``format`` attribute says so); modes follow the umask.  The file is read back by
+:mod:`relbasis.reader` (``relbasis.load``).
+"""
+
+from __future__ import annotations
+
+import json
+import zipfile
+from pathlib import Path
+
+import h5py
+import numpy as np
+from tqdm import tqdm
+
+from . import __version__, constants
+from .dirac import DiracBasis
+from .errors import InputError
+from .layout import BLOCKS, FORMAT, LAYOUT_VERSION
+from .outputs import atomic_group, atomic_write
+from .reader import _plain
+
+
+def check_target(path, force: bool) -> Path:
+    """The output file, after making sure writing it destroys nothing unasked.
+
+    An existing file is replaced only with ``force``, and only if relbasis wrote it (its
+    ``format`` attribute, or for .npz the sidecar's, says so): a foreign file is never replaced.
+    """
+    p = Path(path)
+    if p.is_dir():
+        raise InputError(f"--out {str(p)!r} is a directory: give a file name such as {str(p / 'basis.h5')!r}")
+    if not p.parent.is_dir():
+        what = "is not a directory" if p.parent.exists() else "does not exist"
+        raise InputError(f"--out {str(p)!r}: {str(p.parent)!r} {what}")
+    if p.suffix not in (".h5", ".hdf5", ".npz"):
+        raise InputError(f"--out {str(p)!r}: give a .h5 (HDF5) or .npz (numpy + JSON) file name")
+    for q in (p, p.with_suffix(".json")) if p.suffix == ".npz" else (p,):
+        if not (q.exists() or q.is_symlink()):
+            continue
+        if not _written_by_us(q):
+            raise InputError(f"output file {str(q)!r} exists and was not written by relbasis: it is never replaced "
+                             f"(not even with --force); move it or choose another name")
+        if not force:
+            raise InputError(f"output file {str(q)!r} exists: choose another name or add --force to replace it "
+                             f"(force=True in Python)")
+    return p
+
+
+def _written_by_us(p: Path) -> bool:
+    """True if ``p`` is a regular file that carries relbasis's format marker."""
+    if p.is_symlink() or not p.is_file():
+        return False
+    try:
+        if p.suffix == ".json":
+            return json.loads(p.read_text(encoding="utf-8")).get("attrs", {}).get("format") == FORMAT
+        if p.suffix == ".npz":
+            side = p.with_suffix(".json")
+            return zipfile.is_zipfile(p) and side.is_file() and _written_by_us(side)
+
+        if not h5py.is_hdf5(p):
+            return False
+        with h5py.File(p, "r") as f:
+            return _plain(f.attrs.get("format")) == FORMAT
+    except (OSError, ValueError, AttributeError, TypeError, RuntimeError):
+        return False
+
+
+def _payload(sol, grid: np.ndarray | None, blocks, slater=(), bar=None) -> dict:
+    """Everything the file holds, as plain numbers, strings and arrays (``bar``: a tqdm bar,
+    advanced once per symmetry and per integral block of a pair or symmetry)."""
+    from . import integrals
+
+    tick = bar.update if bar is not None else (lambda n=1: None)
+
+    cfg = sol.config
+    top = {
+        "format": FORMAT, "layout_version": LAYOUT_VERSION, "relbasis_version": __version__,
+        "codata": constants.CODATA, "alpha": constants.ALPHA, "c": constants.C, "c_used": float(sol.c),
+        "hartree_eV": constants.HARTREE_EV, "family": cfg.basis.family, "balance": cfg.basis.balance,
+        "wall": cfg.basis.wall or "", "config_json": json.dumps(cfg.to_dict(), sort_keys=True),
+        "ion_json": json.dumps(sol.nucleus.to_dict(), sort_keys=True),
+        # Added within layout version 1 (readers ignore attributes they do not know; older
+        # files lack it and still load): where the rms radius came from, with its reference.
+        "rms_radius_source": sol.nucleus.rms_radius_source,
+        "energy_unit": "hartree", "length_unit": "bohr",
+    }
+    r_q, w_q = sol.grid
+    out_grid = r_q if grid is None else np.asarray(grid, dtype=float)
+    arrays = {"grid/r": out_grid, "quadrature/r": r_q, "quadrature/w": w_q}
+    if sol.splines is not None:
+        arrays["basis/knots"] = sol.splines.knots
+        top["order"] = sol.splines.order
+    else:
+        arrays["basis/exponents"] = sol.bases[sol.kappas[0]].exponents
+    for kappa in sol.kappas:
+        spec, basis = sol[kappa], sol.bases[kappa]
+        g = f"kappa_{kappa}"
+        arrays[f"{g}/energies"] = spec.energies
+        arrays[f"{g}/coefficients"] = spec.vectors
+        arrays[f"{g}/n"] = np.array([-1 if n is None else n for n in spec.n], dtype=np.int64)
+        arrays[f"{g}/branches"] = np.array(spec.branches, dtype=object)
+        arrays[f"{g}/labels"] = np.array([lab or "" for lab in spec.labels], dtype=object)
+        arrays[f"{g}/flags"] = np.array([",".join(f) for f in spec.flags], dtype=object)
+        est = spec.error_estimate if spec.error_estimate is not None else np.full(spec.energies.size, np.nan)
+        arrays[f"{g}/error_estimate"] = np.where(np.isfinite(est), est, np.nan)
+        if grid is None:
+            P, Q = sol.sample(kappa, None, "PQ")
+        else:
+            P, Q = (m @ spec.vectors for m in basis.components(out_grid)[:2])
+        arrays[f"{g}/P"], arrays[f"{g}/Q"] = P, Q
+        if isinstance(basis, DiracBasis):
+            arrays[f"{g}/family_kinds"] = np.array([f.kind for f in basis.families], dtype=object)
+            for i, f in enumerate(basis.families):
+                arrays[f"{g}/family_{i}_splines"] = f.splines
+            top[f"{g}/balance_radius"] = basis.families[0].balance_radius
+        tick()
+    if "dipole" in blocks:  # every E1-connected pair once, rows: roots of ka, columns: roots of kb
+        for ka in sol.kappas:
+            for kb in sol.kappas:
+                if ka < kb and integrals.reduced_c(1, kb, ka) != 0:
+                    d = integrals.dipole(sol, ka, kb)
+                    arrays[f"integrals/dipole/{ka}_{kb}/radial_length"] = d["radial"]
+                    arrays[f"integrals/dipole/{ka}_{kb}/radial_velocity"] = integrals.dipole_velocity(sol, ka, kb)
+                    top[f"integrals/dipole/{ka}_{kb}/angular"] = d["angular"]
+                    tick()
+    if "hyperfine" in blocks:  # int P_a Q_b / r^2 dr within each symmetry
+        for kappa in sol.kappas:
+            arrays[f"integrals/hyperfine/{kappa}_{kappa}"] = integrals.hyperfine(sol, kappa, kappa)
+            tick()
+    if slater:
+        rows, values = [], []
+        for k, labels in slater:
+            orbitals = [_orbital(sol, lab) for lab in labels]
+            values.append(integrals.slater(sol, k, *orbitals))
+            rows.append(f"{k}:{','.join(labels)}")
+        arrays["integrals/slater/which"] = np.array(rows, dtype=object)
+        arrays["integrals/slater/value"] = np.array(values)
+    return {"attrs": top, "arrays": arrays}
+
+
+def _orbital(sol, label: str) -> tuple[int, int]:
+    """(kappa, root index) of the bound state with this label."""
+    for kappa in sol.kappas:
+        if label in sol[kappa].labels:
+            return kappa, sol[kappa].labels.index(label)
+    raise InputError(f"--slater: no bound state {label!r} among the solved symmetries {list(sol.kappas)}")
+
+
+def parse_slater(text: str) -> tuple[int, tuple[str, str, str, str]]:
+    """'0:1s1/2,1s1/2,1s1/2,1s1/2' -> (0, labels a, b, c, d) of R^k(ab, cd)."""
+    try:
+        k, rest = text.split(":")
+        labels = tuple(x.strip() for x in rest.split(","))
+        k = int(k)
+    except ValueError:
+        raise InputError(f"--slater {text!r}: give K:A,B,C,D with state labels, e.g. 0:1s1/2,1s1/2,1s1/2,1s1/2") from None
+    if k < 0 or len(labels) != 4:
+        raise InputError(f"--slater {text!r}: K must be >= 0 and four orbitals are needed (R^K(AB, CD))")
+    return k, labels
+
+
+def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), allow_large: bool = False,
+           progress: bool | None = None) -> Path:
+    """Write the solution to ``path`` (.h5/.hdf5: HDF5; .npz: numpy archive + .json sidecar).
+
+    ``grid``: radii (bohr, increasing, positive, inside the cavity) at which P and Q are stored
+    (default: the quadrature points); ``blocks``: integral blocks ("dipole", "hyperfine");
+    ``slater``: (k, (a, b, c, d)) with state labels, each stored as R^k(ab, cd).  An export whose
+    estimated size or time exceeds the limits of :mod:`relbasis.budget` is refused unless
+    ``allow_large``.  ``progress``: a bar on stderr (None: when the export is estimated to take
+    more than a couple of seconds and stderr is a terminal).
+    """
+    from . import budget
+
+    blocks = tuple(blocks)
+    bad = [b for b in blocks if b not in BLOCKS]
+    if bad:
+        raise InputError(f"--with {bad[0]!r}: valid integral blocks are {', '.join(BLOCKS)}")
+    if "slater" in blocks and not slater:
+        raise InputError("--with slater: say which integrals with --slater K:A,B,C,D (e.g. 0:1s1/2,1s1/2,1s1/2,1s1/2)")
+    target = check_target(path, force)
+    if grid is not None:
+        grid = _checked_grid(grid, sol)
+    est = budget.export_estimate(sol.config, None if grid is None else grid.size, blocks)
+    budget.check(est, "the export" if grid is None else f"the export on {grid.size} radii", allow_large,
+                 "allow_large=True")
+    own = budget.Estimate(est.memory, est.seconds - budget.solve_estimate(sol.config).seconds, est.symmetries, est.rows)
+    steps = len(sol.kappas) * (1 + ("hyperfine" in blocks)) + ("dipole" in blocks) * sum(
+        1 for a in sol.kappas for b in sol.kappas if a < b and _e1(a, b))
+    with tqdm(total=steps, desc="export", unit="block", disable=not budget.show_progress(own, progress),
+              leave=False) as bar:
+        data = _payload(sol, grid, blocks, tuple(slater), bar)
+    if target.suffix in (".h5", ".hdf5"):
+        atomic_write(target, lambda tmp: _write_h5(tmp, data), "write the basis file")
+    else:  # .npz and its sidecar: both staged, then renamed, so that they always belong together
+        meta = {"attrs": data["attrs"], "strings": {k: list(v) for k, v in data["arrays"].items() if v.dtype == object}}
+        atomic_group([(target, lambda tmp: _write_npz(tmp, data)),
+                      (target.with_suffix(".json"),
+                       lambda tmp: Path(tmp).write_text(json.dumps(meta, indent=1), encoding="utf-8"))],
+                     "write the basis file")
+    return target
+
+
+def _e1(ka: int, kb: int) -> bool:
+    from .integrals import reduced_c
+
+    return reduced_c(1, kb, ka) != 0
+
+
+def _checked_grid(grid, sol) -> np.ndarray:
+    """The output radii as a 1-D float array, or a one-line error naming what is wrong."""
+    try:
+        r = np.asarray(grid, dtype=float)
+    except (TypeError, ValueError):
+        raise InputError("grid: give the radii (bohr) as a sequence of numbers") from None
+    if r.ndim != 1 or r.size < 2:
+        raise InputError(f"grid: give at least two radii in a flat sequence (got shape {r.shape})")
+    if not np.all(np.isfinite(r)) or r[0] <= 0 or np.any(np.diff(r) <= 0):
+        raise InputError("grid: the radii must be finite, positive and strictly increasing (bohr)")
+    if sol.splines is not None and r[-1] > sol.splines.r_max:
+        raise InputError(f"grid: the last radius {r[-1]:g} lies beyond the cavity radius r_max = {sol.splines.r_max:g} bohr")
+    return r
+
+
+def _write_h5(tmp: str, data: dict) -> None:
+
+    with h5py.File(tmp, "w") as f:
+        for key, value in data["attrs"].items():
+            group, _, name = key.rpartition("/")
+            (f.require_group(group) if group else f).attrs[name] = value
+        for key, value in data["arrays"].items():
+            if value.dtype == object:
+                f.create_dataset(key, data=value.astype(str).astype(object), dtype=h5py.string_dtype("utf-8"))
+            else:
+                f.create_dataset(key, data=value)
+        f.attrs["units"] = "energies: hartree (binding, eps = E - m c^2); radii: bohr; P, Q: bohr^-1/2"
+
+
+def _write_npz(tmp: str, data: dict) -> None:
+    numeric = {k.replace("/", "."): v for k, v in data["arrays"].items() if v.dtype != object}
+    with open(tmp, "wb") as fh:
+        np.savez(fh, **numeric)
