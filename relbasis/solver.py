@@ -118,6 +118,7 @@ class Solution:
             "constants": constants.as_dict() | {"c_used": self.c},
             "ion": self.nucleus.to_dict(),
             "basis": basis,
+            "hamiltonian": list(self.terms),  # the parts of H that were solved, by name
             "states": self.states(),
         }
 
@@ -278,7 +279,7 @@ C_MAX = 1e10
 
 
 def solve(config=None, *, c: float | None = None, allow_large: bool = False, progress: bool | None = None,
-          **overrides) -> Solution:
+          terms=(), **overrides) -> Solution:
     """Spectra of the requested symmetries (see :func:`as_config` for the ways to pass a config).
 
     ``c`` replaces the speed of light (atomic units) for checks of the nonrelativistic limit
@@ -293,7 +294,20 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
 
     Every labelled level carries an error estimate (:mod:`relbasis.confidence`), made by
     solving a reduced basis first and comparing level by level.
+
+    ``terms``: potential terms added to the nucleus in H (:class:`relbasis.hamiltonian.LocalTerm`
+    or :class:`~relbasis.hamiltonian.NonlocalTerm`, each with a name the Solution, its JSON
+    document and the exported file record); the reduced basis of the estimate gets them too.
     """
+    terms = tuple(terms)
+    bad = [t for t in terms if not isinstance(t, (hamiltonian.LocalTerm, hamiltonian.NonlocalTerm))]
+    if bad:
+        raise InputError(f"terms: {bad[0]!r} is not a Hamiltonian term (relbasis.hamiltonian.LocalTerm or NonlocalTerm)")
+    taken = {"kinetic", "rest-mass", "nucleus"}
+    for t in terms:
+        if t.name in taken or not t.name:
+            raise InputError(f"terms: the name {t.name!r} is taken or empty; give each term a name of its own")
+        taken.add(t.name)
     if c is not None and not (isinstance(c, (int, float)) and not isinstance(c, bool) and np.isfinite(c)
                               and 1.0 < c <= C_MAX):
         raise InputError(f"c = {c!r}: the speed of light must be a number with 1 < c <= {C_MAX:.0e} "
@@ -307,11 +321,11 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
     try:
         reference = {}  # no reduced basis can be made: no level can be confirmed (all unconverged)
         if small is not None:
-            rough = _solve_resolved(small, nucleus, c, None, bar)
+            rough = _solve_resolved(small, nucleus, c, None, bar, terms)
             reference = {k: {n: float(e) for n, e, b in zip(s.n, s.energies, s.branches)
                              if n is not None and b == "bound"} for k, s in rough.spectra.items()}
             del rough  # its vectors are not needed beyond the levels: free them before the full solve
-        return _solve_resolved(cfg, nucleus, c, reference, bar)
+        return _solve_resolved(cfg, nucleus, c, reference, bar, terms)
     finally:
         if bar is not None:
             bar.close()
@@ -339,10 +353,12 @@ def _finished(bar):
         bar.update(1)
 
 
-def _solve_resolved(cfg: Config, nucleus: Nucleus, c: float, reference: dict | None, bar=None) -> Solution:
-    """The spectra of a resolved config; ``reference`` (kappa -> {n: eps}) feeds the estimates."""
+def _solve_resolved(cfg: Config, nucleus: Nucleus, c: float, reference: dict | None, bar=None,
+                    extra=()) -> Solution:
+    """The spectra of a resolved config; ``reference`` (kappa -> {n: eps}) feeds the estimates;
+    ``extra``: potential terms added to the nucleus."""
     fset = family_of(cfg).build_set(cfg, nucleus, c)
-    terms = (hamiltonian.nucleus_term(nucleus),)
+    terms = (hamiltonian.nucleus_term(nucleus), *extra)
     bases, spectra, systems, sampled = {}, {}, {}, {}
     for kappa in _kappa_order(cfg):
         _starting(bar, f"{'reduced basis, ' if reference is None else ''}kappa {kappa:+d}")

@@ -87,6 +87,8 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=(), bar=None) -> dict:
         # Added within layout version 1 (readers ignore attributes they do not know; older
         # files lack it and still load): where the rms radius came from, with its reference.
         "rms_radius_source": sol.nucleus.rms_radius_source,
+        # Added within layout version 1 as well: the names of the parts of the Hamiltonian solved
+        "hamiltonian_terms": json.dumps(list(getattr(sol, "terms", ("kinetic", "rest-mass", "nucleus")))),
         "energy_unit": "hartree", "length_unit": "bohr",
     }
     r_q, w_q = sol.grid
