@@ -306,6 +306,15 @@ class SplineSet:
     def wall_radius(self) -> float:
         return self.splines.r_max
 
+    @property
+    def panel_points(self) -> int:
+        """Gauss–Legendre points per knot interval: the grid is panels of this many points."""
+        return int(self.table.r.shape[1])
+
+    origin_series = True
+    """The first knot interval resolves the r^gamma behaviour of a point nucleus, so the integrals
+    may use the origin series there (relbasis.integrals)."""
+
     def build(self, kappa: int) -> DiracBasis:
         return DiracBasis.build(self.splines, kappa, self.balance, self.c, self.point_charge, self.wall)
 

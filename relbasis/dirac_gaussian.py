@@ -34,6 +34,8 @@ from .nucleus import Nucleus
 from .sampling import DenseChannels
 
 BALANCES = ("none", "rkb", "dkb")
+PANEL_POINTS = 16
+"""Gauss–Legendre points per panel of the radial grid (relbasis.gaussian.radial_grid's default)."""
 
 
 def _dplus(f: GaussPoly, kappa: int, sign: int = +1) -> GaussPoly:
@@ -185,6 +187,8 @@ class GaussianSet:
     c: float
     threshold: float | None = None
     wall_radius = None  # no cavity wall
+    origin_series = False  # no knot at the origin to hand the r^gamma series to
+    panel_points = PANEL_POINTS  # the grid is panels of this many Gauss–Legendre points
 
     def build(self, kappa: int) -> GaussianDiracBasis:
         return GaussianDiracBasis.build(self.exponents, kappa, self.balance, self.c)

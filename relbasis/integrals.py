@@ -77,7 +77,7 @@ def _check_convergent(sol: Solution, ka: int, kb: int, k: float, parts: str, wha
 
 
 def _origin_applies(sol: Solution, origin: bool) -> bool:
-    return bool(origin and sol.nucleus.model == "point" and sol.nucleus.Z > 0 and sol.table is not None)
+    return bool(origin and sol.nucleus.model == "point" and sol.nucleus.Z > 0 and sol.family_set.origin_series)
 
 
 def _split(sol: Solution, ka: int, kb: int, k: float, rows, cols, pairs, origin: bool,
@@ -451,7 +451,7 @@ def _cumulative(r: np.ndarray, w: np.ndarray, f: np.ndarray, nq: int) -> np.ndar
 def yk(sol: Solution, k: int, b: tuple[int, int], d: tuple[int, int]) -> np.ndarray:
     """Hartree's Y^k_bd(r) on the grid: int (r_<^k / r_>^(k+1)) r rho_bd(s) ds."""
     r, w = sol.grid
-    nq = sol.table.r.shape[1] if sol.table is not None else 16
+    nq = sol.family_set.panel_points
     Pb, Qb = (x[:, 0] for x in _sample(sol, b[0], [b[1]]))
     Pd, Qd = (x[:, 0] for x in _sample(sol, d[0], [d[1]]))
     rho = Pb * Pd + Qb * Qd
