@@ -50,8 +50,7 @@ import numpy as np
 from .bspline import BSplineBasis, QuadratureTable
 from .errors import InputError
 
-BALANCES = ("none", "dkb")
-WALLS = ("dirichlet", "bag")
+from .vocabulary import BALANCES, WALLS  # noqa: E402,F401  (the config vocabulary)
 
 
 @dataclass(frozen=True)

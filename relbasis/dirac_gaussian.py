@@ -27,12 +27,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .analytic import orbital_l
+from .vocabulary import orbital_l
 from .errors import InputError
 from .gaussian import GaussPoly, coulomb, gauss_nucleus, overlap, radial_grid
 from .nucleus import Nucleus
 
-BALANCES = ("none", "rkb", "dkb")
+from .vocabulary import GAUSSIAN_BALANCES as BALANCES  # noqa: E402  (the config vocabulary)
 
 
 def _dplus(f: GaussPoly, kappa: int, sign: int = +1) -> GaussPoly:

@@ -22,12 +22,13 @@ import h5py
 import numpy as np
 from tqdm import tqdm
 
-from . import __version__, constants
+from . import constants
+from .version import __version__
 from .bspline import BSplineBasis
 from .dirac import DiracBasis, Family
 from .dirac_gaussian import GaussianDiracBasis
-from .errors import InputError
-from .outputs import atomic_group, atomic_write
+from .errors import InputError, MissingLevelError
+from .outputs import atomic_group, atomic_write, checked_path
 
 FORMAT = "relbasis-basis"
 LAYOUT_VERSION = 1
@@ -186,9 +187,37 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), a
     estimated size or time exceeds the limits of :mod:`relbasis.budget` is refused unless
     ``allow_large``.  ``progress``: a bar on stderr (None: when the export is estimated to take
     more than a couple of seconds and stderr is a terminal).
+
+    Parameters
+    ----------
+    sol : Solution
+        What :func:`relbasis.solve` returned.
+    path : str or os.PathLike
+        The file to write, .h5/.hdf5 or .npz (docs/file-format.md).
+    force : bool
+        Replace an existing file that relbasis wrote (a foreign file is never replaced).
+    grid : array_like, optional
+        Radii (bohr) for P and Q; None: the quadrature points.
+    blocks : iterable of str
+        Integral blocks: "dipole", "hyperfine", "slater".
+    slater : iterable of (k, (a, b, c, d))
+        The R^k(ab, cd) to store, with state labels such as "1s1/2".
+    allow_large : bool
+        Export even beyond the work limits.
+    progress : bool or None
+        A progress bar on stderr: always, never, or (None) for long exports on a terminal.
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
     """
     from . import budget
+    from .solver import Solution
 
+    if not isinstance(sol, Solution):
+        raise InputError(f"relbasis.export: give the Solution of relbasis.solve(...), not {type(sol).__name__}")
+    path = checked_path(path, "relbasis.export: the output file")
     blocks = tuple(blocks)
     bad = [b for b in blocks if b not in BLOCKS]
     if bad:
@@ -340,7 +369,19 @@ class BasisFile:
         return used_c(self.attrs)
 
     def __getitem__(self, kappa: int) -> KappaBlock:
+        """The :class:`KappaBlock` of symmetry ``kappa`` (a key, as ``Solution[kappa]``)."""
+        if kappa not in self.blocks:
+            raise MissingLevelError(f"kappa = {kappa!r} is not in the file; stored: {list(self.kappas)}")
         return self.blocks[kappa]
+
+    def __iter__(self):
+        return iter(self.blocks)
+
+    def __len__(self) -> int:
+        return len(self.blocks)
+
+    def __contains__(self, kappa) -> bool:
+        return kappa in self.blocks
 
 
 def load(path) -> BasisFile:
@@ -349,6 +390,17 @@ def load(path) -> BasisFile:
     Every damaged, truncated, foreign, wrong-version or inconsistent file gives one InputError
     line naming the file and what is wrong (docs/file-format.md, "What relbasis.load checks");
     nothing in the file is executed or unpickled.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        A .h5/.hdf5 file, or a .npz file beside its .json sidecar.
+
+    Returns
+    -------
+    BasisFile
+        A mapping kappa -> :class:`KappaBlock` (``b[kappa]``, ``for kappa in b``, ``len(b)``,
+        the same meaning as on a Solution), with the file's attributes, config and grid.
     """
 
     failures = (OSError, KeyError, ValueError, TypeError, EOFError, zipfile.BadZipFile, UnicodeDecodeError,
@@ -706,8 +758,7 @@ def _finite_real(v) -> bool:
 
 def _layout(attrs: dict) -> _Layout:
     from .config import FAMILIES, MAX_ORDER
-    from .dirac import BALANCES, WALLS
-    from .dirac_gaussian import BALANCES as GAUSSIAN_BALANCES
+    from .vocabulary import BALANCES, GAUSSIAN_BALANCES, WALLS
 
     if "format" not in attrs:
         raise _Damaged("is not a relbasis basis file: it has no 'format' attribute (written by another program?)")

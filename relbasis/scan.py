@@ -44,15 +44,16 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
-from .analytic import dirac_coulomb_energy, orbital_l
-from .config import _KEYS, _suggest, from_dict, resolve
+from .version import __version__
+from .analytic import dirac_coulomb_energy
+from .vocabulary import LETTERS as _LETTERS, orbital_l
+from .config import KEYS as _KEYS, from_dict, resolve
 from .errors import ConfigError, InputError
-from .outputs import read_input, atomic_text, atomic_write, directory_for, os_failure, read_manifest, write_manifest
+from .validate import suggest as _suggest
+from .outputs import checked_path, read_input, atomic_text, atomic_write, directory_for, os_failure, read_manifest, write_manifest
 
 REFERENCES = ("auto", "exact", "largest")
 _LABEL = re.compile(r"^(\d+)([spdfghiklmnoqrtuvwxyz])(\d+)/2$")
-_LETTERS = "spdfghiklmnoqrtuvwxyz"
 
 
 # ----------------------------------------------------------------------------- the plan
@@ -464,11 +465,34 @@ def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, prog
     units beyond the work limits through.  ``out`` may hold other files: the scan writes only
     results.jsonl, summary.json, convergence.csv, error_*.png and its manifest, and replaces
     only files it wrote itself.
+
+    Parameters
+    ----------
+    plan : Plan, dict, str or os.PathLike
+        The plan (docs/scan.md): a :class:`Plan`, a mapping with [base], [axes] and [track], or
+        the path of a TOML plan.
+    out : str or os.PathLike
+        The output directory (created if missing; results already there are reused).
+    jobs : int
+        Worker processes (-1: all cores).
+    scheduler : str, optional
+        Address of a dask scheduler to run the units on instead.
+    progress : bool
+        A progress bar on stderr.
+    allow_large : bool
+        Run units beyond the work limits.
+
+    Returns
+    -------
+    ScanResult
+        The analysis written into ``out``.
     """
     if isinstance(plan, Plan):
         check_units(plan, allow_large)
+    elif isinstance(plan, dict):
+        plan = plan_from_dict(plan, allow_large)
     else:
-        plan = load_plan(plan, allow_large)
+        plan = load_plan(checked_path(plan, "scan plan"), allow_large)
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs == 0 or jobs < -1:
         raise InputError(f"--jobs {jobs!r}: give a positive number of processes (or -1 for all cores)")
     if scheduler is not None:
