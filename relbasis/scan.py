@@ -497,7 +497,7 @@ def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, prog
         raise InputError(f"--jobs {jobs!r}: give a positive number of processes (or -1 for all cores)")
     if scheduler is not None:
         scheduler = check_scheduler(scheduler)
-    out = Path(out)
+    out = checked_path(out, "out")
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {str(out)!r} is a file, not a directory")
     ours = claim_folder(out) if out.is_dir() else set()

@@ -56,7 +56,7 @@ class Solution:
 
     def sample(self, kappa: int, roots=None, channels: str = "PQDM") -> tuple[np.ndarray, ...]:
         """P, Q, D+P, D-Q (any of "PQDM") of the chosen roots of kappa on :attr:`grid`."""
-        spec, basis = self.spectra[kappa], self.bases[kappa]
+        spec, basis = self[kappa], self.bases[kappa]
         vec = spec.vectors if roots is None else spec.vectors[:, roots]
         if self.table is not None:
             return basis.local_channels(self.table).evaluate(vec, channels)

@@ -60,6 +60,16 @@ def integer(key: str, value, minimum: int, *, error=InputError) -> int:
     return int(value)
 
 
+def items(key: str, value, *, error=InputError) -> tuple:
+    """A tuple of the items of ``value``: one string counts as one item, a non-iterable is refused."""
+    if isinstance(value, str):
+        return (value,)
+    try:
+        return tuple(value)
+    except TypeError:
+        raise error(f"{key} = {value!r}: give a list or tuple") from None
+
+
 def choice(key: str, value, options, *, error=InputError) -> str:
     """One of the strings ``options``, with a "did you mean" for a near miss."""
     if not isinstance(value, str) or value not in options:

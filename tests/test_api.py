@@ -54,9 +54,37 @@ def test_wrong_types_are_one_line_input_errors(call, tmp_path, monkeypatch):
     assert "\n" not in str(err.value)
 
 
-def test_export_to_a_non_path_is_an_input_error(solved):
-    with pytest.raises(InputError, match="not int"):
-        relbasis.export(solved(**SMALL), 3)
+@pytest.mark.parametrize("kwargs,needle", [
+    ({"path": 3}, "not int"),
+    ({"blocks": 5}, "blocks = 5"),
+    ({"blocks": ("slater",), "slater": [5]}, "slater item 5"),
+    ({"blocks": ("slater",), "slater": [(0, 5)]}, "four state labels"),
+    ({"blocks": ("slater",), "slater": [(True, ("1s1/2",) * 4)]}, "k >= 0"),
+])
+def test_export_arguments_of_the_wrong_shape_are_input_errors(solved, tmp_path, kwargs, needle):
+    kwargs = {"path": tmp_path / "b.h5", **kwargs}
+    with pytest.raises(InputError, match=needle):
+        relbasis.export(solved(**SMALL), **kwargs)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_slater_integrals_may_be_given_as_text(solved, tmp_path):
+    sol = solved(**SMALL)
+    text = relbasis.export(sol, tmp_path / "t.h5", blocks=("slater",), slater=["0:1s1/2,1s1/2,1s1/2,1s1/2"])
+    pair = relbasis.export(sol, tmp_path / "p.h5", blocks=("slater",), slater=[(0, ("1s1/2",) * 4)])
+    a, b = relbasis.load(text).integrals, relbasis.load(pair).integrals
+    assert a.keys() == b.keys() and "slater/value" in a
+    np.testing.assert_array_equal(a["slater/value"], b["slater/value"])
+
+
+def test_sampling_a_kappa_that_was_not_solved_is_an_input_error(solved):
+    with pytest.raises(MissingLevelError, match="kappa = 5"):
+        solved(**SMALL).sample(5)
+
+
+def test_scan_into_a_non_path_is_an_input_error():
+    with pytest.raises(InputError, match="out: give a path"):
+        scan({"base": {"ion": {"Z": 10}}, "axes": {"basis.size": [20]}, "track": {"max_n": 1}}, 5, progress=False)
 
 
 def test_scan_accepts_a_mapping(tmp_path):
