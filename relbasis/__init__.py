@@ -7,7 +7,7 @@ a level reaches the negative continuum.  Levels are computed for the stated mode
 must be validated before use in publications or safety-related work.
 """
 
-__version__ = "0.1.0"
+from .version import __version__
 
 import os as _os
 

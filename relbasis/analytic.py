@@ -25,16 +25,7 @@ from scipy.special import gammaln
 
 from .constants import ALPHA, C
 from .errors import InputError, PhysicsRangeError
-
-
-def orbital_l(kappa: int) -> int:
-    """Orbital angular momentum l of the large component: kappa = -(l+1) or +l."""
-    return kappa if kappa > 0 else -kappa - 1
-
-
-def j_twice(kappa: int) -> int:
-    """2j = 2|kappa| - 1."""
-    return 2 * abs(kappa) - 1
+from .vocabulary import j_twice, orbital_l  # noqa: F401  (defined in the vocabulary; public here too)
 
 
 def _check(Z: float, n: int, kappa: int) -> None:

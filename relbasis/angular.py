@@ -17,7 +17,7 @@ from __future__ import annotations
 from functools import lru_cache
 from math import factorial, sqrt
 
-from .analytic import j_twice, orbital_l
+from .vocabulary import j_twice, orbital_l
 
 
 @lru_cache(maxsize=4096)

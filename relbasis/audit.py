@@ -27,8 +27,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.linalg as sl
 
-from . import __version__
-from .analytic import orbital_l
+from .version import __version__
+from .vocabulary import orbital_l
 from .angular import dipole_partners, reduced_c
 from .config import DEFAULT_CAVITY, MAX_SIZE
 from .solver import Solution, as_config, solve

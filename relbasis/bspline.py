@@ -30,7 +30,7 @@ from scipy.optimize import brentq
 
 from .errors import InputError
 
-KNOT_KINDS = ("exponential", "log-linear")
+from .vocabulary import KNOT_KINDS  # noqa: E402,F401  (the config vocabulary)
 
 
 def _validate(size: int, order: int, r_min: float, r_max: float) -> None:

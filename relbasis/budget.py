@@ -33,7 +33,7 @@ import os
 import sys
 from dataclasses import dataclass
 
-from .errors import InputError
+from .errors import InputError, option
 
 EIGH_SECONDS = 0.6
 """Seconds of ``scipy.linalg.eigh(H, S)`` (values and vectors) per (1000 rows)^3, measured here on
@@ -180,7 +180,7 @@ def export_estimate(config, grid_points: int | None = None, blocks=()) -> Estima
     coefficients and P, Q on the grid, 2 components x 8 bytes a point, plus the integral
     blocks), the memory (the solve, the file's arrays held before writing, the functions on the
     grid) and the time (the solve, P and Q on a given grid, the integral blocks, the writing)."""
-    from .integrals import reduced_c
+    from .angular import reduced_c
 
     solve = solve_estimate(config)
     rows = solve.rows
@@ -206,7 +206,7 @@ def export_estimate(config, grid_points: int | None = None, blocks=()) -> Estima
 # ----------------------------------------------------------------------------- the limits
 
 
-def check(estimate: Estimate, what: str, allow_large: bool = False, flag: str = "--allow-large") -> Estimate:
+def check(estimate: Estimate, what: str, allow_large: bool = False, flag: str = option("allow_large=True", "--allow-large")) -> Estimate:
     """Refuse ``estimate`` beyond the limits (InputError naming ``what``, the estimate, the limit
     and ``flag``); with ``allow_large`` only beyond the machine's physical memory."""
     ram = machine_memory()

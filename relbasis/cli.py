@@ -16,7 +16,8 @@ import sys
 
 import numpy as np
 
-from . import __version__, constants
+from . import constants
+from .version import __version__
 from .errors import InputError
 
 _EXAMPLE = "relbasis levels --z 92"
@@ -318,7 +319,7 @@ def _check_export_work(args, spec, blocks) -> None:
                 f"in each of {est.symmetries} symmetries)")
     else:
         what = f"the export of {b.size} functions per component"
-    budget.check(est, what, args.allow_large)
+    budget.check(est, what, args.allow_large, "--allow-large")  # the command line names its flag
 
 
 def _cmd_levels(args) -> int:

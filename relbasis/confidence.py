@@ -27,7 +27,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .analytic import orbital_l
+from .vocabulary import orbital_l
 from .families import ORIGIN_FACTOR, family_of, reduction  # noqa: F401  (ORIGIN_FACTOR, reduction: public here too)
 
 CONFIDENCE_THRESHOLD = 1e-9

@@ -31,7 +31,6 @@ the test-suite checks (relative 1e-11 on point-nucleus levels with n <= 4 up to 
 
 from __future__ import annotations
 
-import difflib
 import math
 import numbers
 import tomllib
@@ -41,14 +40,19 @@ import numpy as np
 from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
 
-from .bspline import KNOT_KINDS
-from .constants import C, FM_BOHR
-from .dirac import BALANCES, WALLS
-from .dirac_gaussian import BALANCES as GAUSSIAN_BALANCES
-from .errors import ConfigError, InputError
-from .nucleus import FERMI_MIN_RMS_FM, MODELS, RADIUS_CHOICES, Nucleus, make_nucleus
+from typing import TYPE_CHECKING
 
-FAMILIES = ("bspline", "gaussian")
+from . import validate
+from .constants import C, FM_BOHR
+from .errors import ConfigError, InputError
+from .outputs import checked_path, read_input
+from .validate import suggest
+from .vocabulary import BALANCES_OF, FAMILIES, KNOT_KINDS, MODELS, RADIUS_CHOICES, WALLS, orbital_l
+from .vocabulary import BALANCES, GAUSSIAN_BALANCES  # noqa: F401  (public here too, as before)
+
+if TYPE_CHECKING:  # annotations only; resolving a config imports nucleus inside the functions that need it
+    from .nucleus import Nucleus
+
 DEFAULT_SIZE = {"bspline": 100, "gaussian": 40}
 DEFAULT_CAVITY = 250.0
 """Default cavity radius times Z (bohr): r_max = 250/Z with the default 100 splines holds the
@@ -147,50 +151,28 @@ class Config:
 # ----------------------------------------------------------------------------- validation
 
 _SECTIONS = {"ion": IonSpec, "basis": BasisSpec, "solve": SolveSpec}
-_KEYS = {name: tuple(f for f in cls.__dataclass_fields__) for name, cls in _SECTIONS.items()}
-
-
-def _suggest(word: str, options) -> str:
-    close = difflib.get_close_matches(str(word), list(options), n=1, cutoff=0.5)
-    return f" (did you mean {close[0]!r}?)" if close else ""
+KEYS = {name: tuple(f for f in cls.__dataclass_fields__) for name, cls in _SECTIONS.items()}
+"""Valid keys of each section, e.g. ``KEYS["basis"]``."""
+_KEYS = KEYS  # the former private name
+_suggest = suggest  # the former private name (now relbasis.validate.suggest)
 
 
 def _real(key: str, value, *, positive: bool = True) -> float:
-    if isinstance(value, bool) or not isinstance(value, numbers.Real):
-        raise ConfigError(f"{key} = {value!r}: must be a number")
-    value = float(value)
-    if not math.isfinite(value) or (positive and value <= 0):
-        raise ConfigError(f"{key} = {value!r}: must be a finite number{' > 0' if positive else ''}")
-    return value
+    return validate.real(key, value, positive=positive, error=ConfigError)
 
 
 def _within(key: str, value: float, lo: float, hi: float, unit: str = "", why: str = "", *,
             lo_open: bool = False, hi_open: bool = False) -> float:
     """value if lo <= value <= hi (strict where open), else a one-line ConfigError with the range."""
-    low_ok = value > lo if lo_open else value >= lo
-    high_ok = value < hi if hi_open else value <= hi
-    if not (low_ok and high_ok):
-        name = key.rpartition(".")[2].rstrip("[]")
-        rng = f"{lo:g} {'<' if lo_open else '<='} {name} {'<' if hi_open else '<='} {hi:g}{' ' + unit if unit else ''}"
-        raise ConfigError(f"{key} = {value:g}: valid {rng}{' (' + why + ')' if why else ''}")
-    return value
+    return validate.within(key, value, lo, hi, unit, why, lo_open=lo_open, hi_open=hi_open, error=ConfigError)
 
 
 def _integer(key: str, value, minimum: int) -> int:
-    if isinstance(value, bool) or not isinstance(value, numbers.Integral):
-        if isinstance(value, float) and value.is_integer():
-            value = int(value)
-        else:
-            raise ConfigError(f"{key} = {value!r}: must be an integer >= {minimum}")
-    if value < minimum:
-        raise ConfigError(f"{key} = {value!r}: must be an integer >= {minimum}")
-    return int(value)
+    return validate.integer(key, value, minimum, error=ConfigError)
 
 
 def _choice(key: str, value, options) -> str:
-    if not isinstance(value, str) or value not in options:
-        raise ConfigError(f"{key} = {value!r}: valid are {', '.join(repr(o) for o in options)}{_suggest(value, options)}")
-    return value
+    return validate.choice(key, value, options, error=ConfigError)
 
 
 def _kappas(value) -> tuple[int, ...]:
@@ -213,7 +195,7 @@ def _check_ion(d: dict) -> IonSpec:
     if "Z" not in d:
         raise ConfigError("ion.Z is missing: the nuclear charge is required (e.g. Z = 92)")
     Z = d["Z"]
-    if isinstance(Z, bool) or not isinstance(Z, numbers.Real) or not math.isfinite(float(Z)) or Z < 0:
+    if not validate.is_real(Z) or not math.isfinite(float(Z)) or Z < 0:
         raise ConfigError(f"ion.Z = {Z!r}: must be a number >= 0 (0: a free particle in the cavity)")
     _within("ion.Z", float(Z), 0, Z_MAX, why="0: a free particle in the cavity")
     A = None if d.get("A") is None else _integer("ion.A", d["A"], 1)
@@ -225,7 +207,7 @@ def _check_ion(d: dict) -> IonSpec:
         _within("ion.rms_radius_fm", rms, RMS_MIN_FM, RMS_MAX_FM, "fm", "the proton has 0.84 fm")
     radius = d.get("radius")
     if radius is not None and radius not in RADIUS_CHOICES:
-        hint = _suggest(radius, RADIUS_CHOICES) or " (a radius in fm goes in ion.rms_radius_fm)"
+        hint = suggest(radius, RADIUS_CHOICES) or " (a radius in fm goes in ion.rms_radius_fm)"
         raise ConfigError(f"ion.radius = {radius!r}: valid are 'formula', 'measured'{hint}")
     if radius is not None and rms is not None:
         raise ConfigError(f"ion.rms_radius_fm = {rms:g} and ion.radius = {radius!r} both say where the rms "
@@ -246,7 +228,7 @@ def _check_basis(d: dict) -> BasisSpec:
     if wrong:
         other = "gaussian" if family == "bspline" else "bspline"
         raise ConfigError(f"basis.{wrong[0]} applies to family = {other!r}, not {family!r}")
-    balances = BALANCES if family == "bspline" else GAUSSIAN_BALANCES
+    balances = BALANCES_OF[family]
     if "balance" in d:
         kw["balance"] = _choice("basis.balance", d["balance"], balances)
     if d.get("wall") is not None:
@@ -354,18 +336,35 @@ def _check_size(basis: BasisSpec, kappas: int) -> None:
 
 
 def from_dict(data: dict) -> Config:
-    """Validated :class:`Config` from a mapping shaped like the TOML file."""
+    """Validated :class:`Config` from a mapping shaped like the TOML file.
+
+    Parameters
+    ----------
+    data : dict
+        ``{"ion": {...}, "basis": {...}, "solve": {...}}`` with the keys of docs/config.md
+        (``Config.to_dict()`` gives one back).
+
+    Returns
+    -------
+    Config
+        The validated config (ion-dependent defaults still None; see :func:`resolve`).
+
+    Raises
+    ------
+    ConfigError
+        One line naming the unknown or bad key and what would be valid (a "did you mean").
+    """
     if not isinstance(data, dict):
         raise ConfigError(f"config must be a mapping of sections, got {type(data).__name__}")
     for name, sec in data.items():
         if name not in _SECTIONS:
-            raise ConfigError(f"unknown section [{name}]{_suggest(name, _SECTIONS)}; valid: [ion], [basis], [solve]")
+            raise ConfigError(f"unknown section [{name}]{suggest(name, _SECTIONS)}; valid: [ion], [basis], [solve]")
         if not isinstance(sec, dict):
             raise ConfigError(f"[{name}] must be a table of keys, got {sec!r}")
         for key in sec:
-            if key not in _KEYS[name]:
-                valid = ", ".join(_KEYS[name])
-                raise ConfigError(f"unknown key {name}.{key}{_suggest(key, _KEYS[name])}; valid in [{name}]: {valid}")
+            if key not in KEYS[name]:
+                valid = ", ".join(KEYS[name])
+                raise ConfigError(f"unknown key {name}.{key}{suggest(key, KEYS[name])}; valid in [{name}]: {valid}")
     if "ion" not in data:
         raise ConfigError("section [ion] is missing: at least Z is required")
     ion = _check_ion(data["ion"])
@@ -376,10 +375,24 @@ def from_dict(data: dict) -> Config:
 
 
 def load(path) -> Config:
-    """Validated :class:`Config` from a TOML file."""
-    from .outputs import read_input
+    """Validated :class:`Config` from a TOML file (docs/config.md).
 
-    p = Path(path)
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The TOML file, with sections [ion], [basis] and [solve].
+
+    Returns
+    -------
+    Config
+        The validated config; defaults that depend on the ion stay None until :func:`resolve`.
+
+    Raises
+    ------
+    InputError
+        One line naming the file and what is wrong with it (missing, not TOML, a bad key or value).
+    """
+    p = checked_path(path, "config file")
     text = read_input(p, "config file")
     try:
         data = tomllib.loads(text)
@@ -397,6 +410,10 @@ def default_nucleus(ion: IonSpec) -> str:
         return ion.nucleus
     if ion.Z == 0:
         return "point"  # no nucleus at all: V = 0
+    # Function-level import: config is a leaf of the import graph (tests/test_import_graph.py);
+    # only resolving a config into a nucleus needs the nucleus module.
+    from .nucleus import FERMI_MIN_RMS_FM, make_nucleus
+
     rms = ion.rms_radius_fm
     if rms is None:  # the radius the ion will get: formula or measured, default A or given
         try:
@@ -407,6 +424,9 @@ def default_nucleus(ion: IonSpec) -> str:
 
 
 def nucleus_of(ion: IonSpec) -> Nucleus:
+    """The nucleus record of an ion (the default model filled in)."""
+    from .nucleus import make_nucleus  # see default_nucleus: config stays a leaf module
+
     return make_nucleus(ion.Z, default_nucleus(ion), ion.A, ion.rms_radius_fm, ion.radius)
 
 
@@ -490,7 +510,6 @@ def _moments_fit(l_large: int, l_small: int, zmin: float, zmax: float) -> bool:
 
 
 def _check_gaussian_numerics(config: Config, note) -> None:
-    from .analytic import orbital_l
 
     b = config.basis
     if b.exponents is not None:

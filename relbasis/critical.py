@@ -41,7 +41,6 @@ tolerance XTOL of each of the two searches.
 
 from __future__ import annotations
 
-import difflib
 import math
 import numbers
 import time
@@ -50,7 +49,8 @@ from dataclasses import asdict, dataclass
 import numpy as np
 from scipy import optimize
 
-from . import __version__, constants
+from . import constants
+from .version import __version__
 from .config import DEFAULT_CAVITY, DEFAULT_SIZE, MAX_SIZE
 from .constants import C
 from .eigen import Eigensystem, refine
@@ -58,6 +58,7 @@ from .errors import InputError, PhysicsRangeError
 from .nucleus import MODELS, RADIUS_RULE, rms_radius_of_mass_fm
 from .solver import solve
 from .spectrum import count_nodes, orbital_label
+from .validate import is_real, suggest
 
 DEFAULT_A_PER_Z = 2.5
 """Default mass rule A = 2.5 Z.  The element table (relbasis.elements) stops at Z = 118, below
@@ -118,7 +119,7 @@ class MassRule:
                 msg = " ".join(str(err).split())
                 raise InputError(f"mass_number({Z:.10g}) raised {type(err).__name__}: {msg}; "
                                  "give a function of Z returning the mass number") from None
-        if isinstance(A, bool) or not isinstance(A, numbers.Real) or not math.isfinite(A) or A <= 0:
+        if not is_real(A) or not math.isfinite(A) or A <= 0:
             raise InputError(f"mass_number({Z:.10g}) = {A!r}: must be a finite number > 0 (mass number)")
         if A < Z:
             given = f"mass_number = {A:g} (fixed A)" if self.fixed is not None else f"mass_number({Z:.10g}) = {float(A):.10g}"
@@ -136,8 +137,7 @@ def mass_rule(mass_number=None) -> MassRule:
     if callable(mass_number):
         name = getattr(mass_number, "__name__", type(mass_number).__name__)
         return MassRule(f"A = {name}(Z) (given function)", function=mass_number)
-    if isinstance(mass_number, bool) or not isinstance(mass_number, numbers.Real) \
-            or not math.isfinite(mass_number) or mass_number <= 0:
+    if not is_real(mass_number) or not math.isfinite(mass_number) or mass_number <= 0:
         raise InputError(f"mass_number = {mass_number!r}: give a number > 0 (fixed A), a function of Z, "
                          "or None (A = 2.5 Z)")
     return MassRule(f"A = {float(mass_number):g} (fixed)", fixed=float(mass_number))
@@ -145,7 +145,7 @@ def mass_rule(mass_number=None) -> MassRule:
 
 def per_z_rule(a_per_z: float) -> MassRule:
     """A = a_per_z * Z (the command line's --a-per-z)."""
-    if isinstance(a_per_z, bool) or not isinstance(a_per_z, numbers.Real) or not math.isfinite(a_per_z) \
+    if not is_real(a_per_z) or not math.isfinite(a_per_z) \
             or a_per_z < 1:
         raise InputError(f"a_per_z = {a_per_z!r}: must be a number >= 1 (A >= Z), e.g. 2.5")
     return MassRule(f"A = {float(a_per_z):g} Z", a_per_z=float(a_per_z))
@@ -167,8 +167,7 @@ def _check_model(nucleus) -> str:
                          f"(Z = {C:.2f} for |kappa| = 1) above eps = -2c^2; choose 'sphere', 'gauss' or 'fermi'")
     finite = tuple(m for m in MODELS if m != "point")
     if not isinstance(nucleus, str) or nucleus not in finite:
-        close = difflib.get_close_matches(nucleus.lower(), finite, n=1) if isinstance(nucleus, str) else []
-        hint = f" (did you mean {close[0]!r}?)" if close else ""
+        hint = suggest(nucleus.lower(), finite, cutoff=0.6) if isinstance(nucleus, str) else ""
         raise InputError(f"nucleus = {nucleus!r}: valid are {', '.join(repr(m) for m in finite)}{hint}")
     return nucleus
 
@@ -379,6 +378,31 @@ def critical_charge(nucleus: str = "fermi", mass_number=None, n: int = 1, kappa:
     the check basis has CHECK_SIZE_STEP more splines and CHECK_CAVITY_FACTOR times the cavity.
     ``progress`` shows a tqdm bar of the solves.  ``rule`` (a :class:`MassRule`) replaces
     ``mass_number`` (the command line's --a-per-z).  See the module docstring for the method.
+
+    Parameters
+    ----------
+    nucleus : {'sphere', 'gauss', 'fermi'}
+        The finite nuclear model.
+    mass_number : None, float or callable
+        A = 2.5 Z (None), a fixed A, or a function of the real charge Z returning A.
+    n, kappa : int
+        The level: n >= l + 1, kappa = -(l+1) or +l (default 1s1/2).
+    basis : dict, optional
+        [basis] keys of the primary basis (BASIS_KEYS), e.g. ``{"size": 120}``.
+    progress : bool
+        A progress bar of the solves on stderr.
+    rule : MassRule, optional
+        Replaces ``mass_number`` (see :func:`per_z_rule`).
+
+    Returns
+    -------
+    CriticalCharge
+        Z_cr, its check in a larger basis, the slope d eps / dZ there and the settings used.
+
+    Raises
+    ------
+    InputError
+        A bad argument, or a level that has no critical charge in the searched range.
     """
     t0 = time.perf_counter()
     n, kappa = _check_level(n, kappa)

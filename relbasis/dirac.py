@@ -51,8 +51,7 @@ from .bspline import BSplineBasis, QuadratureTable, exponential_knots, knots_fro
 from .errors import InputError
 from .sampling import channel_names
 
-BALANCES = ("none", "dkb")
-WALLS = ("dirichlet", "bag")
+from .vocabulary import BALANCES, WALLS  # noqa: E402,F401  (the config vocabulary)
 
 
 @dataclass(frozen=True)

@@ -27,13 +27,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .analytic import orbital_l
+from .vocabulary import orbital_l
 from .errors import InputError
 from .gaussian import GaussPoly, coulomb, gauss_nucleus, overlap, radial_grid
 from .nucleus import Nucleus
 from .sampling import DenseChannels
 
-BALANCES = ("none", "rkb", "dkb")
+from .vocabulary import GAUSSIAN_BALANCES as BALANCES  # noqa: E402  (the config vocabulary)
+
 PANEL_POINTS = 16
 """Gauss–Legendre points per panel of the radial grid (relbasis.gaussian.radial_grid's default)."""
 

@@ -11,10 +11,10 @@ from __future__ import annotations
 import csv
 import functools
 import io
-import numbers
 from importlib import resources
 
 from relbasis.errors import InputError
+from relbasis.validate import is_real
 
 Z_MAX: int = 118
 """Largest Z in the table."""
@@ -35,7 +35,7 @@ def _table() -> dict[int, tuple[str, int]]:
 
 def _as_table_z(Z, what: str) -> int:
     """Z as an int key of the table, or InputError saying what the caller must supply instead."""
-    if isinstance(Z, bool) or not isinstance(Z, numbers.Real):
+    if not is_real(Z):
         raise InputError(f"Z = {Z!r} must be a number (nuclear charge)")
     if Z != Z or not float(Z).is_integer() or not 1 <= Z <= Z_MAX:
         fix = ": give A in [ion]" if what == "default mass number" else ""

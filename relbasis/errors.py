@@ -2,8 +2,16 @@
 
 Every problem with a config file, a command-line flag or a Python argument is an
 :class:`InputError` whose message is one line naming the offending key or value and what
-would be valid.  The command line prints that line and exits with status 2.
+would be valid.  The command line prints that line and exits with status 2.  A message that
+names a setting to change names it in both forms (:func:`option`), e.g. ``force=True / --force``.
 """
+
+
+def option(python: str, flag: str) -> str:
+    """A setting named in both forms, ``force=True / --force``: the Python parameter, then the
+    command-line flag.  Messages that tell the user to change a setting use it, since the same
+    check runs behind ``relbasis.solve(...)`` and behind ``relbasis solve ...``."""
+    return f"{python} / {flag}"
 
 
 class InputError(ValueError):

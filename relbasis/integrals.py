@@ -32,7 +32,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .analytic import orbital_l
+from .vocabulary import orbital_l
 from .angular import reduced_c
 from .errors import InputError
 from .solver import Solution

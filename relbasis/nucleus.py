@@ -26,7 +26,6 @@ Z = 0 means "no nucleus" (a free particle): V = 0 and rho = 0 for every model.
 
 from __future__ import annotations
 
-import difflib
 import math
 import numbers
 from dataclasses import dataclass, field
@@ -37,12 +36,9 @@ from scipy import optimize, special
 from relbasis.constants import BOHR_FM, FM_BOHR
 from relbasis.elements import Z_MAX, default_mass_number
 from relbasis.errors import InputError, PhysicsRangeError
+from relbasis.validate import is_real, suggest
 
-MODELS = ("point", "sphere", "gauss", "fermi")
-"""Nuclear models, the values of the ``nucleus`` key."""
-
-RADIUS_CHOICES = ("formula", "measured")
-"""Where the rms radius comes from when ``rms_radius_fm`` is not given (the ``radius`` key)."""
+from relbasis.vocabulary import MODELS, RADIUS_CHOICES  # noqa: F401  (the config vocabulary)
 
 # Where a nucleus's rms radius came from, as the output states it (Nucleus.rms_radius_source).
 FORMULA_SOURCE = ("formula 0.836 A^(1/3) + 0.570 fm, W. R. Johnson, G. Soff, "
@@ -95,7 +91,7 @@ def rms_radius_of_mass_fm(A: float) -> float:
     For mass numbers that follow a smooth rule of a real-valued Z, such as A = 2.5 Z in the
     critical-charge search (:mod:`relbasis.critical`), where A is generally not an integer.
     """
-    if isinstance(A, bool) or not isinstance(A, numbers.Real) or not (math.isfinite(A) and A > 0):
+    if not is_real(A) or not (math.isfinite(A) and A > 0):
         raise InputError(f"A = {A!r} must be a finite number > 0 (mass number)")
     return 0.836 * A ** (1.0 / 3.0) + 0.570
 
@@ -104,7 +100,7 @@ def rms_radius_of_mass_fm(A: float) -> float:
 
 
 def _check_Z(Z) -> float:
-    if isinstance(Z, bool) or not isinstance(Z, numbers.Real):
+    if not is_real(Z):
         raise InputError(f"Z = {Z!r} must be a number (nuclear charge, >= 0)")
     Z = float(Z)
     if not math.isfinite(Z) or Z < 0:
@@ -115,8 +111,7 @@ def _check_Z(Z) -> float:
 def _check_model(model) -> str:
     if isinstance(model, str) and model in MODELS:
         return model
-    close = difflib.get_close_matches(str(model).lower(), MODELS, n=1) if isinstance(model, str) else []
-    hint = f" (did you mean {close[0]!r}?)" if close else ""
+    hint = suggest(model.lower(), MODELS, cutoff=0.6) if isinstance(model, str) else ""
     raise InputError(f"nucleus = {model!r} is not a nucleus model; valid: {', '.join(MODELS)}{hint}")
 
 
@@ -130,7 +125,7 @@ def _check_A(A) -> int:
 
 
 def _check_rms(rms) -> float:
-    if isinstance(rms, bool) or not isinstance(rms, numbers.Real):
+    if not is_real(rms):
         raise InputError(f"rms_radius_fm = {rms!r} must be a number (fm)")
     rms = float(rms)
     if not math.isfinite(rms) or rms <= 0:
@@ -141,8 +136,8 @@ def _check_rms(rms) -> float:
 def _check_radius_choice(radius) -> str | None:
     if radius is None or (isinstance(radius, str) and radius in RADIUS_CHOICES):
         return radius
-    close = difflib.get_close_matches(str(radius).lower(), RADIUS_CHOICES, n=1) if isinstance(radius, str) else []
-    hint = f" (did you mean {close[0]!r}?)" if close else " (a radius in fm goes in rms_radius_fm)"
+    hint = (suggest(radius.lower(), RADIUS_CHOICES, cutoff=0.6) if isinstance(radius, str) else "") \
+        or " (a radius in fm goes in rms_radius_fm)"
     raise InputError(f"radius = {radius!r}: valid are 'formula', 'measured'{hint}")
 
 

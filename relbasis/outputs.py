@@ -30,7 +30,7 @@ from collections.abc import Callable, Iterable
 from contextlib import contextmanager
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, option
 
 MANIFEST = ".relbasis-manifest.json"
 """Name of the record, in an output directory, of the files relbasis wrote there."""
@@ -152,10 +152,23 @@ MAX_INPUT_BYTES = 10 * 2**20
 """Largest config or plan file read (10 MiB; real ones are a few hundred bytes)."""
 
 
+def checked_path(path, what: str) -> Path:
+    """``path`` as a Path, or a one-line InputError when it is no path (a number, None, a list)."""
+    if not isinstance(path, (str, os.PathLike)):
+        raise InputError(f"{what}: give a path (str or pathlib.Path), not {type(path).__name__} {_short(path)}")
+    return Path(path)
+
+
+def _short(value) -> str:
+    text = repr(value)
+    return text if len(text) <= 40 else text[:37] + "..."
+
+
 def read_input(path, what: str) -> str:
     """The text of a small input file (a config, a plan), or a one-line error saying why not:
-    missing, a directory, not a regular file (a device, a pipe), too large, unreadable, not UTF-8."""
-    p = Path(path)
+    no path at all, missing, a directory, not a regular file (a device, a pipe), too large,
+    unreadable, not UTF-8."""
+    p = checked_path(path, what)
     if not p.exists():
         raise InputError(f"{what} {str(p)!r} not found")
     if p.is_dir():
@@ -238,7 +251,7 @@ def read_manifest(directory) -> dict[str, str]:
 def write_manifest(directory, kind: str, files: Iterable[str]) -> None:
     """Record (atomically) that an output of ``kind`` now consists of ``files`` in ``directory``;
     the records of other kinds of output there are kept."""
-    from . import __version__
+    from .version import __version__
 
     entries = {name: k for name, k in read_manifest(directory).items() if k != kind}
     entries.update({name: kind for name in files})
@@ -270,7 +283,7 @@ def claim(directory, names: Iterable[str], kind: str, *, force: bool, what: str,
             continue
         if name not in ours or p.is_symlink() or not p.is_file():
             raise InputError(f"{what} {str(directory)!r} holds a file {name!r} that relbasis did not write there: "
-                             f"it is never replaced (not even with --force); move it or choose another directory")
+                             f"it is never replaced (not even with {option('force=True', '--force')}); move it or choose another directory")
         present.append(name)
     if present and not force:
         raise InputError(f"{what} {str(directory)!r} already holds {', '.join(present)} from an earlier run: "

@@ -22,7 +22,7 @@ from . import constants
 from .bspline import BSplineBasis
 from .dirac import DiracBasis, Family
 from .dirac_gaussian import GaussianDiracBasis
-from .errors import InputError
+from .errors import InputError, MissingLevelError
 from .layout import FORMAT, LAYOUT_VERSION
 
 
@@ -105,7 +105,19 @@ class BasisFile:
         return used_c(self.attrs)
 
     def __getitem__(self, kappa: int) -> KappaBlock:
+        """The :class:`KappaBlock` of symmetry ``kappa`` (a key, as ``Solution[kappa]``)."""
+        if kappa not in self.blocks:
+            raise MissingLevelError(f"kappa = {kappa!r} is not in the file; stored: {list(self.kappas)}")
         return self.blocks[kappa]
+
+    def __iter__(self):
+        return iter(self.blocks)
+
+    def __len__(self) -> int:
+        return len(self.blocks)
+
+    def __contains__(self, kappa) -> bool:
+        return kappa in self.blocks
 
 
 def load(path) -> BasisFile:
@@ -114,6 +126,17 @@ def load(path) -> BasisFile:
     Every damaged, truncated, foreign, wrong-version or inconsistent file gives one InputError
     line naming the file and what is wrong (docs/file-format.md, "What relbasis.load checks");
     nothing in the file is executed or unpickled.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        A .h5/.hdf5 file, or a .npz file beside its .json sidecar.
+
+    Returns
+    -------
+    BasisFile
+        A mapping kappa -> :class:`KappaBlock` (``b[kappa]``, ``for kappa in b``, ``len(b)``,
+        the same meaning as on a Solution), with the file's attributes, config and grid.
     """
 
     failures = (OSError, KeyError, ValueError, TypeError, EOFError, zipfile.BadZipFile, UnicodeDecodeError,
@@ -471,8 +494,7 @@ def _finite_real(v) -> bool:
 
 def _layout(attrs: dict) -> _Layout:
     from .config import FAMILIES, MAX_ORDER
-    from .dirac import BALANCES, WALLS
-    from .dirac_gaussian import BALANCES as GAUSSIAN_BALANCES
+    from .vocabulary import BALANCES, GAUSSIAN_BALANCES, WALLS
 
     if "format" not in attrs:
         raise _Damaged("is not a relbasis basis file: it has no 'format' attribute (written by another program?)")

@@ -13,7 +13,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from .errors import InputError
+from .errors import InputError, option
 from .outputs import atomic_group, claim, directory_for, write_manifest
 
 REPORT_FILES = ("audit.json", "spectrum.png", "convergence.png")
@@ -27,13 +27,13 @@ def check_target(path, force: bool) -> Path:
     """
     target = Path(path)
     if target.exists() and not target.is_dir():
-        raise InputError(f"--report {str(target)!r} is a file, not a directory: give a directory")
+        raise InputError(f"report directory {str(target)!r} ({option('path', '--report')}) is a file, not a directory: give a directory")
     if not target.exists():
         if not target.parent.is_dir():
-            raise InputError(f"--report {str(target)!r}: the parent directory {str(target.parent)!r} does not exist")
+            raise InputError(f"report directory {str(target)!r} ({option('path', '--report')}): the parent directory {str(target.parent)!r} does not exist")
         return target
     claim(target, REPORT_FILES, KIND, force=force, what="report directory",
-          replace_hint="add --force to replace them (force=True in Python), or choose another directory")
+          replace_hint=f"add {option('force=True', '--force')} to replace them, or choose another directory")
     return target
 
 
@@ -49,7 +49,7 @@ def write_report(result, path, force: bool, series: dict) -> Path:
     against = "exact Dirac–Coulomb levels" if (sol.nucleus.model == "point" and sol.nucleus.Z > 0) \
         else f"a basis of size {comparison_size(sol.config.basis.size)}"
     title = f"Z = {sol.nucleus.Z:g}: bound levels n <= {result.max_n} against {against}"
-    with directory_for(target, "--report"):
+    with directory_for(target, "report directory"):
         atomic_group([
             (target / "audit.json", lambda tmp: Path(tmp).write_text(json.dumps(doc, indent=1), encoding="utf-8")),
             (target / "spectrum.png", lambda tmp: spectrum_figure(sol, tmp)),

@@ -9,20 +9,21 @@ first so that the duplicate-level check of kappa > 0 can look at its partner -ka
 from __future__ import annotations
 
 import sys
-from dataclasses import dataclass, field
+from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
-from . import __version__, constants
+from . import constants
+from .version import __version__
 from .analytic import dirac_coulomb_energy
 from .bspline import BSplineBasis, QuadratureTable, exponential_knots, knots_from_breakpoints, log_linear_knots
-from .config import Config, from_dict, load, resolve
+from .config import BasisSpec, Config, IonSpec, SolveSpec, from_dict, load, resolve
 from .constants import C
 from .dirac import DiracBasis
 from .dirac_gaussian import GaussianDiracBasis
 from .eigen import DEFAULT_THRESHOLD, Eigensystem, refine, shift_invert, solve as eigensolve
 from .gaussian import even_tempered
-from .errors import InputError
+from .errors import InputError, MissingLevelError, option
 from .finite import check_matrices, check_roots
 from . import budget
 from .nucleus import Nucleus
@@ -63,7 +64,7 @@ class Solution:
     def sample(self, kappa: int, roots=None, channels="PQDM") -> tuple[np.ndarray, ...]:
         """Components of the chosen roots of kappa on :attr:`grid`: names "P", "Q", "DP" (D+P),
         "DQ" (D-Q), or a string of the letters P, Q, D, M (relbasis.sampling)."""
-        spec = self.spectra[kappa]
+        spec = self[kappa]
         vec = spec.vectors if roots is None else spec.vectors[:, roots]
         return self.functions(kappa).evaluate(vec, channels)
 
@@ -77,8 +78,23 @@ class Solution:
     def kappas(self) -> tuple[int, ...]:
         return self.config.solve.kappas
 
+    # A Solution reads like a mapping kappa -> Spectrum (as a loaded BasisFile reads like one
+    # kappa -> KappaBlock): ``sol[kappa]`` is the Spectrum of that symmetry, ``for kappa in sol``
+    # runs over the solved kappas in config order, ``len(sol)`` counts them.
     def __getitem__(self, kappa: int) -> Spectrum:
+        """The :class:`Spectrum` of symmetry ``kappa`` (a key, not a position)."""
+        if kappa not in self.spectra:
+            raise MissingLevelError(f"kappa = {kappa!r} was not solved; solved: {list(self.kappas)}")
         return self.spectra[kappa]
+
+    def __iter__(self):
+        return iter(self.kappas)
+
+    def __len__(self) -> int:
+        return len(self.kappas)
+
+    def __contains__(self, kappa) -> bool:
+        return kappa in self.spectra
 
     def exact(self, kappa: int, n: int) -> float | None:
         """Exact Dirac–Coulomb binding energy for a point nucleus, else None."""
@@ -133,7 +149,9 @@ def _estimate(spec: Spectrum, i: int) -> float | None:
 def as_config(config=None, **overrides) -> Config:
     """A :class:`Config` from a Config, a mapping, a TOML path or keyword overrides.
 
-    Overrides are section-qualified: ``solve(None, ion={"Z": 92}, basis={"size": 60})``.
+    Overrides are section-qualified: ``solve(None, ion={"Z": 92}, basis={"size": 60})``; a
+    section may also be given as its spec object, ``ion=IonSpec(92)`` (the keys it sets, i.e.
+    the fields that are not None).
     """
     if isinstance(config, Config):
         data = config.to_dict()
@@ -144,6 +162,8 @@ def as_config(config=None, **overrides) -> Config:
     else:
         data = load(config).to_dict()
     for section, values in overrides.items():
+        if isinstance(values, (IonSpec, BasisSpec, SolveSpec)):  # a spec object: its keys that are set
+            values = {k: v for k, v in asdict(values).items() if v is not None}
         if not isinstance(values, dict):
             raise InputError(f"override {section}={values!r}: give a mapping of keys, e.g. {section}={{...}}")
         data.setdefault(section, {})
@@ -295,9 +315,35 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
     Every labelled level carries an error estimate (:mod:`relbasis.confidence`), made by
     solving a reduced basis first and comparing level by level.
 
-    ``terms``: potential terms added to the nucleus in H (:class:`relbasis.hamiltonian.LocalTerm`
-    or :class:`~relbasis.hamiltonian.NonlocalTerm`, each with a name the Solution, its JSON
-    document and the exported file record); the reduced basis of the estimate gets them too.
+    Parameters
+    ----------
+    config : Config, mapping, str or os.PathLike, optional
+        The config (docs/config.md): a :class:`~relbasis.config.Config`, a mapping shaped like
+        the TOML file, or the path of a TOML file; None: only the overrides.
+    c : float, optional
+        Speed of light (atomic units), 1 < c <= C_MAX; None: 1/alpha.
+    allow_large : bool
+        Solve even beyond the work limits of docs/performance.md.
+    progress : bool or None
+        A progress bar on stderr: always, never, or (None) for long solves on a terminal.
+    terms : sequence of LocalTerm or NonlocalTerm
+        Potential terms added to the nucleus in H (:mod:`relbasis.hamiltonian`), each with a
+        name the Solution, its JSON document and the exported file record; the reduced basis of
+        the error estimate gets them too.
+    **overrides
+        Section-qualified keys that replace those of ``config``: ``ion={"Z": 92}``, or spec
+        objects, ``ion=IonSpec(92)``, ``basis=BasisSpec(size=60)`` (their keys that are not None).
+
+    Returns
+    -------
+    Solution
+        A mapping kappa -> :class:`~relbasis.spectrum.Spectrum` (``sol[kappa]``, ``for kappa in
+        sol``, ``len(sol)``), with the resolved config, the nucleus and the bases.
+
+    Raises
+    ------
+    InputError
+        One line naming the bad key or value and what would be valid.
     """
     terms = tuple(terms)
     bad = [t for t in terms if not isinstance(t, (hamiltonian.LocalTerm, hamiltonian.NonlocalTerm))]
@@ -316,7 +362,7 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
     cfg, nucleus = resolve(as_config(config, **overrides), c)
     small = reduced_config(cfg)
     estimate = budget.check(budget.solve_estimate(cfg), f"basis.size = {cfg.basis.size}",
-                            allow_large, "--allow-large (allow_large=True)")
+                            allow_large, option("allow_large=True", "--allow-large"))
     bar = _progress_bar(estimate, progress, len(cfg.solve.kappas) * (2 if small is not None else 1))
     try:
         reference = {}  # no reduced basis can be made: no level can be confirmed (all unconverged)

@@ -43,7 +43,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .analytic import j_twice, orbital_l
+from .vocabulary import LETTERS as _LETTERS, j_twice, orbital_l, orbital_label  # noqa: F401  (orbital_label: public here too)
 from .confidence import cavity_estimate, judge
 from .errors import InputError, MissingLevelError
 
@@ -66,16 +66,6 @@ the root in the bound branch but withdraw the claim of accuracy; ``dived`` marks
 -2c^2 that keeps the negative branch with its n and label."""
 DUPLICATE_TOLERANCE = 1e-6
 """Relative distance below which two levels of partner symmetries count as the same level."""
-
-_LETTERS = "spdfghiklmnoqrtuvwxyz"
-
-
-def orbital_label(n: int, kappa: int) -> str:
-    """Spectroscopic label such as ``1s1/2`` or ``2p3/2``."""
-    l = orbital_l(kappa)
-    letter = _LETTERS[l] if l < len(_LETTERS) else f"[l={l}]"
-    return f"{n}{letter}{j_twice(kappa)}/2"
-
 
 def count_nodes(P: np.ndarray, w: np.ndarray, floor: float = NODE_FLOOR) -> np.ndarray:
     """Nodes of each column of P (values on an ascending radial grid with weights w).

@@ -17,11 +17,13 @@ import h5py
 import numpy as np
 from tqdm import tqdm
 
-from . import __version__, constants
+from . import constants
+from .version import __version__
 from .dirac import DiracBasis
 from .errors import InputError
 from .layout import BLOCKS, FORMAT, LAYOUT_VERSION
-from .outputs import atomic_group, atomic_write
+from .outputs import atomic_group, atomic_write, checked_path
+from .validate import items
 from .reader import _plain
 
 
@@ -166,6 +168,22 @@ def parse_slater(text: str) -> tuple[int, tuple[str, str, str, str]]:
     return k, labels
 
 
+def _slater_entry(item) -> tuple[int, tuple[str, str, str, str]]:
+    """One ``slater`` item of :func:`export`: (k, (a, b, c, d)) or the text 'K:A,B,C,D'."""
+    if isinstance(item, str):
+        return parse_slater(item)
+    try:
+        k, labels = item
+        labels = tuple(labels)
+    except (TypeError, ValueError):
+        k, labels = None, ()
+    if isinstance(k, bool) or not isinstance(k, (int, np.integer)) or k < 0 \
+            or len(labels) != 4 or not all(isinstance(x, str) for x in labels):
+        raise InputError(f"slater item {item!r}: give (k, (a, b, c, d)) with k >= 0 and four state labels, "
+                         "e.g. (0, ('1s1/2', '1s1/2', '1s1/2', '1s1/2'))")
+    return int(k), labels
+
+
 def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), allow_large: bool = False,
            progress: bool | None = None) -> Path:
     """Write the solution to ``path`` (.h5/.hdf5: HDF5; .npz: numpy archive + .json sidecar).
@@ -176,10 +194,39 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), a
     estimated size or time exceeds the limits of :mod:`relbasis.budget` is refused unless
     ``allow_large``.  ``progress``: a bar on stderr (None: when the export is estimated to take
     more than a couple of seconds and stderr is a terminal).
+
+    Parameters
+    ----------
+    sol : Solution
+        What :func:`relbasis.solve` returned.
+    path : str or os.PathLike
+        The file to write, .h5/.hdf5 or .npz (docs/file-format.md).
+    force : bool
+        Replace an existing file that relbasis wrote (a foreign file is never replaced).
+    grid : array_like, optional
+        Radii (bohr) for P and Q; None: the quadrature points.
+    blocks : iterable of str
+        Integral blocks: "dipole", "hyperfine", "slater".
+    slater : iterable of (k, (a, b, c, d)) or of 'K:A,B,C,D'
+        The R^k(ab, cd) to store, with state labels such as "1s1/2".
+    allow_large : bool
+        Export even beyond the work limits.
+    progress : bool or None
+        A progress bar on stderr: always, never, or (None) for long exports on a terminal.
+
+    Returns
+    -------
+    pathlib.Path
+        The file written.
     """
     from . import budget
+    from .solver import Solution
 
-    blocks = tuple(blocks)
+    if not isinstance(sol, Solution):
+        raise InputError(f"relbasis.export: give the Solution of relbasis.solve(...), not {type(sol).__name__}")
+    path = checked_path(path, "relbasis.export: the output file")
+    blocks = items("blocks", blocks)
+    slater = tuple(_slater_entry(s) for s in items("slater", slater))
     bad = [b for b in blocks if b not in BLOCKS]
     if bad:
         raise InputError(f"--with {bad[0]!r}: valid integral blocks are {', '.join(BLOCKS)}")
@@ -196,7 +243,7 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), a
         1 for a in sol.kappas for b in sol.kappas if a < b and _e1(a, b))
     with tqdm(total=steps, desc="export", unit="block", disable=not budget.show_progress(own, progress),
               leave=False) as bar:
-        data = _payload(sol, grid, blocks, tuple(slater), bar)
+        data = _payload(sol, grid, blocks, slater, bar)
     if target.suffix in (".h5", ".hdf5"):
         atomic_write(target, lambda tmp: _write_h5(tmp, data), "write the basis file")
     else:  # .npz and its sidecar: both staged, then renamed, so that they always belong together

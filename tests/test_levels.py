@@ -112,7 +112,7 @@ def test_every_root_once_and_the_dkb_split(Z, model):
 
 
 def test_states_are_normalised_with_p_positive_near_origin():
-    """∫(P² + Q²) dr = 1 and P > 0 at small r (DESIGN conventions, common practice)."""
+    """∫(P² + Q²) dr = 1 and P > 0 at small r (the conventions of DEVELOPERS.md, common practice)."""
     sol = point(54)
     spec, basis = sol[-1], sol.bases[-1]
     r = np.geomspace(1e-6, basis.splines.r_max, 4000)

@@ -8,7 +8,7 @@ import math
 
 import numpy as np
 
-from .. import __version__
+from ..version import __version__
 from ..analytic import dirac_coulomb_energy
 from .plan import Plan, Unit, parse_label
 

@@ -15,9 +15,10 @@ import warnings
 from dataclasses import dataclass
 from pathlib import Path
 
-from .. import __version__
-from ..analytic import orbital_l
-from ..config import _KEYS, _suggest, from_dict, resolve
+from ..version import __version__
+from ..vocabulary import LETTERS as _LETTERS, orbital_l
+from ..config import KEYS as _KEYS, from_dict, resolve
+from ..validate import suggest as _suggest
 from ..errors import ConfigError, InputError
 from ..outputs import read_input
 from .store import RECORD_FORMAT
@@ -25,7 +26,6 @@ from .store import RECORD_FORMAT
 
 REFERENCES = ("auto", "exact", "largest")
 _LABEL = re.compile(r"^(\d+)([spdfghiklmnoqrtuvwxyz])(\d+)/2$")
-_LETTERS = "spdfghiklmnoqrtuvwxyz"
 
 
 def parse_label(label: str) -> tuple[int, int]:

@@ -10,10 +10,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import InputError
-from ..outputs import directory_for, write_manifest
+from ..outputs import checked_path, directory_for, write_manifest
 from .analysis import analyse
 from .output import _PICTURE, OUTPUT_KIND, claim_folder, write_outputs
-from .plan import Plan, Unit, check_units, load_plan, unit_key, units
+from .plan import Plan, Unit, check_units, load_plan, plan_from_dict, unit_key, units
 from .store import Store
 
 
@@ -103,16 +103,39 @@ def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, prog
     units beyond the work limits through.  ``out`` may hold other files: the scan writes only
     results.jsonl, summary.json, convergence.csv, error_*.png and its manifest, and replaces
     only files it wrote itself.
+
+    Parameters
+    ----------
+    plan : Plan, dict, str or os.PathLike
+        The plan (docs/scan.md): a :class:`Plan`, a mapping with [base], [axes] and [track], or
+        the path of a TOML plan.
+    out : str or os.PathLike
+        The output directory (created if missing; results already there are reused).
+    jobs : int
+        Worker processes (-1: all cores).
+    scheduler : str, optional
+        Address of a dask scheduler to run the units on instead.
+    progress : bool
+        A progress bar on stderr.
+    allow_large : bool
+        Run units beyond the work limits.
+
+    Returns
+    -------
+    ScanResult
+        The analysis written into ``out``.
     """
     if isinstance(plan, Plan):
         check_units(plan, allow_large)
+    elif isinstance(plan, dict):
+        plan = plan_from_dict(plan, allow_large)
     else:
-        plan = load_plan(plan, allow_large)
+        plan = load_plan(checked_path(plan, "scan plan"), allow_large)
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs == 0 or jobs < -1:
         raise InputError(f"--jobs {jobs!r}: give a positive number of processes (or -1 for all cores)")
     if scheduler is not None:
         scheduler = check_scheduler(scheduler)
-    out = Path(out)
+    out = checked_path(out, "out")
     if out.exists() and not out.is_dir():
         raise InputError(f"--out {str(out)!r} is a file, not a directory")
     ours = claim_folder(out) if out.is_dir() else set()
