@@ -133,22 +133,10 @@ def rows_of(basis) -> int:
 
 
 def points_of(basis) -> int:
-    """Radial quadrature points of a resolved basis (B-splines: intervals x points each)."""
-    if basis.family == "bspline":
-        if isinstance(basis.knots, tuple):
-            intervals = len(basis.knots) - 1
-        else:
-            intervals = int(basis.size) - int(basis.order) + 1  # surface breakpoints replace others (build_splines)
-        return intervals * int(basis.quadrature)
-    lo, hi = _exponent_range(basis)
-    decades = max(math.log10(9.0 / math.sqrt(2.0 * lo) / (1e-3 / math.sqrt(hi))), 1.0)
-    return int(16 * (6 * decades + 8))  # 6 panels a decade, 16 points each (gaussian.radial_grid)
+    """Radial quadrature points of a resolved basis (the family's own count, relbasis.families)."""
+    from .families import family_of
 
-
-def _exponent_range(basis) -> tuple[float, float]:
-    if basis.exponents is not None:
-        return min(basis.exponents), max(basis.exponents)
-    return float(basis.exponent_min), float(basis.exponent_max)
+    return family_of(basis).quadrature_points(basis)
 
 
 def solve_estimate(config) -> Estimate:

@@ -124,23 +124,15 @@ def _fmt_flags(flags) -> str:
 
 
 def basis_line(sol) -> str:
-    """One line describing the basis actually used (defaults resolved)."""
+    """One line describing the basis actually used (defaults resolved): the family's own words,
+    then what canonical orthogonalisation dropped (where it ran)."""
+    from .families import family_of
+
     b = sol.config.basis
-    if b.family == "gaussian":
-        if b.exponents is not None:
-            rng = f"given exponents {min(b.exponents):.3g}..{max(b.exponents):.3g}"
-        else:
-            rng = f"even-tempered exponents {b.exponent_min:.3g}..{b.exponent_max:.3g}"
-        text = f"basis: gaussian, {b.size} functions per component, {rng} bohr^-2, balance = {b.balance}"
-        dropped = {k: n for k, n in sol.dropped.items() if n}
-        text += "; canonical orthogonalisation dropped " + (
-            ", ".join(f"{n} in kappa {k:+d}" for k, n in dropped.items()) if dropped else "nothing")
-        return text
-    knots = b.knots if isinstance(b.knots, str) else "given"
-    text = (f"basis: bspline, {b.size} splines of order {b.order}, {knots} knots r_min = {b.r_min:.3g}, "
-            f"r_max = {b.r_max:.4g} bohr, balance = {b.balance}, wall = {b.wall}")
+    family = family_of(b)
+    text = f"basis: {family.describe(b)}"
     dropped = {k: n for k, n in sol.dropped.items() if n}
-    if dropped or b.overlap_threshold is not None:
+    if dropped or family.always_orthogonalised or b.overlap_threshold is not None:
         text += "; canonical orthogonalisation dropped " + (
             ", ".join(f"{n} in kappa {k:+d}" for k, n in dropped.items()) if dropped else "nothing")
     return text
@@ -303,15 +295,17 @@ def _check_export_work(args, spec, blocks) -> None:
     resolved config alone (relbasis.budget): refused at once, before the solve."""
     from . import budget
     from .config import LENGTH_MAX, resolve
+    from .families import family_of
     from .solver import as_config
 
     config, over = _config_source(args)
     cfg, _ = resolve(as_config(config, **over))
     b = cfg.basis
     if spec is not None:
-        top = b.r_max if b.family == "bspline" else LENGTH_MAX
+        wall = family_of(b).wall(b)
+        top = wall if wall is not None else LENGTH_MAX
         if spec[1] > top:
-            where = f"the cavity radius r_max = {top:g} bohr" if b.family == "bspline" else f"{top:g} bohr"
+            where = f"the cavity radius r_max = {top:g} bohr" if wall is not None else f"{top:g} bohr"
             raise InputError(f"--grid: R_MAX = {spec[1]:g} lies beyond {where}")
     est = budget.export_estimate(cfg, spec[2] if spec is not None else None, blocks)
     if spec is not None:

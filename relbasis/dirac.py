@@ -327,6 +327,18 @@ class SplineSet:
     def band_order(self, basis: DiracBasis):
         return basis.band_order()
 
+    def record(self) -> tuple[dict, dict]:
+        """(attributes, arrays) of the exported file that rebuild the spline set: the order and
+        the knots (docs/file-format.md)."""
+        return {"order": self.splines.order}, {"knots": self.splines.knots}
+
+    def record_kappa(self, basis: DiracBasis) -> tuple[dict, dict]:
+        """(attributes, arrays) of one symmetry: its function families and their splines."""
+        arrays = {"family_kinds": np.array([f.kind for f in basis.families], dtype=object)}
+        for i, f in enumerate(basis.families):
+            arrays[f"family_{i}_splines"] = f.splines
+        return {"balance_radius": basis.families[0].balance_radius}, arrays
+
     def cause(self) -> str:
         """What a non-finite number of a solve points to (relbasis.finite)."""
         t = self.splines.knots

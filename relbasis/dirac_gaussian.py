@@ -203,6 +203,13 @@ class GaussianSet:
     def band_order(self, basis):
         return None  # dense functions: no band structure
 
+    def record(self) -> tuple[dict, dict]:
+        """(attributes, arrays) of the exported file that rebuild the set: the exponents."""
+        return {}, {"exponents": self.exponents}
+
+    def record_kappa(self, basis) -> tuple[dict, dict]:
+        return {}, {}  # the exponents and the balance define every symmetry
+
     def cause(self) -> str:
         return (f"the Gaussian exponents {float(np.min(self.exponents)):.3g}..{float(np.max(self.exponents)):.3g} "
                 f"bohr^-2 (c = {self.c:g}) lie outside what double precision represents; see the valid ranges in "

@@ -10,6 +10,7 @@ A family object is stateless: its methods take the resolved :class:`~relbasis.co
 
 from __future__ import annotations
 
+import math
 from dataclasses import replace
 
 import numpy as np
@@ -36,6 +37,20 @@ class BasisFamily:
     """The balance to suggest when the spectrum has spurious roots."""
     edge_words: tuple[str, str] = ("", "")
     """How :meth:`edge_fractions` measures (near the origin, far out), for the audit's text."""
+    always_orthogonalised: bool = False
+    """True if canonical orthogonalisation always runs (the tables then say what it dropped)."""
+
+    def describe(self, spec) -> str:
+        """The basis in words, for the header of the tables: "bspline, 100 splines of order 10, ..."."""
+        raise NotImplementedError
+
+    def wall(self, spec) -> float | None:
+        """The cavity radius (bohr), None for a family without a wall."""
+        return None
+
+    def quadrature_points(self, spec) -> int:
+        """Radial quadrature points of a resolved basis (for the work estimates)."""
+        raise NotImplementedError
 
     def minimum_size(self, spec) -> int:
         """Fewest functions per component that make a sensible basis of this family."""
@@ -75,6 +90,21 @@ class BSplineFamily(BasisFamily):
 
     def minimum_size(self, spec) -> int:
         return int(spec.order) + 4
+
+    def describe(self, spec) -> str:
+        knots = spec.knots if isinstance(spec.knots, str) else "given"
+        return (f"bspline, {spec.size} splines of order {spec.order}, {knots} knots r_min = {spec.r_min:.3g}, "
+                f"r_max = {spec.r_max:.4g} bohr, balance = {spec.balance}, wall = {spec.wall}")
+
+    def wall(self, spec) -> float | None:
+        return float(spec.r_max)
+
+    def quadrature_points(self, spec) -> int:
+        if isinstance(spec.knots, tuple):
+            intervals = len(spec.knots) - 1
+        else:
+            intervals = int(spec.size) - int(spec.order) + 1  # surface breakpoints replace others (build_splines)
+        return intervals * int(spec.quadrature)
 
     def resizable(self, spec) -> bool:
         return not isinstance(spec.knots, tuple)
@@ -130,8 +160,23 @@ class GaussianFamily(BasisFamily):
     edge_words = ("inside 1/sqrt(zeta_max), the reach of the tightest Gaussian",
                   "beyond 3/sqrt(zeta_min), the reach of the most diffuse Gaussian")
 
+    always_orthogonalised = True
+
     def minimum_size(self, spec) -> int:
         return 6
+
+    def describe(self, spec) -> str:
+        if spec.exponents is not None:
+            rng = f"given exponents {min(spec.exponents):.3g}..{max(spec.exponents):.3g}"
+        else:
+            rng = f"even-tempered exponents {spec.exponent_min:.3g}..{spec.exponent_max:.3g}"
+        return f"gaussian, {spec.size} functions per component, {rng} bohr^-2, balance = {spec.balance}"
+
+    def quadrature_points(self, spec) -> int:
+        lo = min(spec.exponents) if spec.exponents is not None else float(spec.exponent_min)
+        hi = max(spec.exponents) if spec.exponents is not None else float(spec.exponent_max)
+        decades = max(math.log10(9.0 / math.sqrt(2.0 * lo) / (1e-3 / math.sqrt(hi))), 1.0)
+        return int(16 * (6 * decades + 8))  # 6 panels a decade, 16 points each (gaussian.radial_grid)
 
     def resizable(self, spec) -> bool:
         return spec.exponents is None

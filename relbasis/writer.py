@@ -19,7 +19,6 @@ from tqdm import tqdm
 
 from . import constants
 from .version import __version__
-from .dirac import DiracBasis
 from .errors import InputError
 from .layout import BLOCKS, FORMAT, LAYOUT_VERSION
 from .outputs import atomic_group, atomic_write, checked_path
@@ -96,11 +95,10 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=(), bar=None) -> dict:
     r_q, w_q = sol.grid
     out_grid = r_q if grid is None else np.asarray(grid, dtype=float)
     arrays = {"grid/r": out_grid, "quadrature/r": r_q, "quadrature/w": w_q}
-    if sol.splines is not None:
-        arrays["basis/knots"] = sol.splines.knots
-        top["order"] = sol.splines.order
-    else:
-        arrays["basis/exponents"] = sol.bases[sol.kappas[0]].exponents
+    fset = sol.family_set
+    attrs, data = fset.record()  # what rebuilds the functions (docs/file-format.md)
+    top.update(attrs)
+    arrays.update({f"basis/{k}": v for k, v in data.items()})
     for kappa in sol.kappas:
         spec, basis = sol[kappa], sol.bases[kappa]
         g = f"kappa_{kappa}"
@@ -117,11 +115,9 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=(), bar=None) -> dict:
         else:
             P, Q = (m @ spec.vectors for m in basis.components(out_grid)[:2])
         arrays[f"{g}/P"], arrays[f"{g}/Q"] = P, Q
-        if isinstance(basis, DiracBasis):
-            arrays[f"{g}/family_kinds"] = np.array([f.kind for f in basis.families], dtype=object)
-            for i, f in enumerate(basis.families):
-                arrays[f"{g}/family_{i}_splines"] = f.splines
-            top[f"{g}/balance_radius"] = basis.families[0].balance_radius
+        attrs, data = fset.record_kappa(basis)
+        top.update({f"{g}/{k}": v for k, v in attrs.items()})
+        arrays.update({f"{g}/{k}": v for k, v in data.items()})
         tick()
     if "dipole" in blocks:  # every E1-connected pair once, rows: roots of ka, columns: roots of kb
         for ka in sol.kappas:
@@ -271,8 +267,9 @@ def _checked_grid(grid, sol) -> np.ndarray:
         raise InputError(f"grid: give at least two radii in a flat sequence (got shape {r.shape})")
     if not np.all(np.isfinite(r)) or r[0] <= 0 or np.any(np.diff(r) <= 0):
         raise InputError("grid: the radii must be finite, positive and strictly increasing (bohr)")
-    if sol.splines is not None and r[-1] > sol.splines.r_max:
-        raise InputError(f"grid: the last radius {r[-1]:g} lies beyond the cavity radius r_max = {sol.splines.r_max:g} bohr")
+    wall = sol.family_set.wall_radius
+    if wall is not None and r[-1] > wall:
+        raise InputError(f"grid: the last radius {r[-1]:g} lies beyond the cavity radius r_max = {wall:g} bohr")
     return r
 
 

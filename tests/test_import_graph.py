@@ -28,9 +28,9 @@ LAYERS: tuple[tuple[str, ...], ...] = (
     ("bspline", "gaussian"),
     # 6 Dirac matrices of one kappa, per family; the registry of families
     ("dirac", "dirac_gaussian", "eigen"),
-    ("families", "precision", "budget"),
+    ("families", "precision"),
     # 8 judging a spectrum
-    ("confidence",),
+    ("confidence", "budget"),
     ("spectrum",),
     # 10 the solver, then what is computed from a solution
     ("solver",),
