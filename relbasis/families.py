@@ -58,6 +58,22 @@ class BasisFamily:
         """Advice that gives the far-out states more room."""
         raise NotImplementedError
 
+    # --- for the audit (relbasis.measures, relbasis.checks)
+
+    def exponents_of(self, solution):
+        """The exponents of the solution's basis that :meth:`edge_fractions` needs (None if none)."""
+        return None
+
+    def overlap_condition(self, solution, kappa: int) -> float:
+        """Condition number of the diagonally scaled overlap of symmetry ``kappa``, as the solve
+        recorded it (NaN where it made none)."""
+        return solution.condition.get(kappa, float("nan"))
+
+    def reach_advice(self, spec, exponents, max_n: int, share: float) -> str:
+        """Advice when the bound states n <= max_n reach beyond the basis (norm share ``share``
+        measured by :meth:`edge_fractions`)."""
+        raise NotImplementedError
+
 
 class BSplineFamily(BasisFamily):
     """B-splines on a knot sequence in [0, r_max]: a hard wall at the cavity radius."""
@@ -103,6 +119,24 @@ class BSplineFamily(BasisFamily):
 
     def cavity_fix(self, spec, factor: float = 1.5) -> str:
         return f"raise r_max to {factor * spec.r_max:.4g} bohr"
+
+    def overlap_condition(self, solution, kappa: int) -> float:
+        """The recorded figure, or (where the solve made none) the overlap assembled again from
+        the solution's Gauss–Legendre table and its eigenvalues computed here."""
+        cond = solution.condition.get(kappa, float("nan"))
+        if not np.isfinite(cond):
+            import scipy.linalg as sl
+
+            table = solution.table
+            _, S = solution.bases[kappa].matrices(table, np.zeros_like(table.r))
+            d = 1 / np.sqrt(np.diag(S))
+            s = sl.eigvalsh(S * d[:, None] * d[None, :])
+            cond = s[-1] / s[0] if s[0] > 0 else float("inf")
+        return cond
+
+    def reach_advice(self, spec, exponents, max_n: int, share: float) -> str:
+        return (f"raise r_max to {2 * spec.r_max:.3g} bohr: the bound states n <= {max_n} reach the wall "
+                f"(norm share {share:.1e})")
 
 
 class GaussianFamily(BasisFamily):
@@ -151,6 +185,13 @@ class GaussianFamily(BasisFamily):
     def cavity_fix(self, spec, factor: float = 10.0) -> str:
         zmin = spec.exponent_min if spec.exponents is None else min(spec.exponents)
         return f"lower exponent_min to {zmin / factor:.3g}"
+
+    def exponents_of(self, solution):
+        return solution.bases[solution.kappas[0]].exponents
+
+    def reach_advice(self, spec, exponents, max_n: int, share: float) -> str:
+        return (f"lower exponent_min to {min(exponents) / 10:.3g}: the bound states n <= {max_n} reach beyond "
+                f"the most diffuse Gaussian (norm share {share:.1e} beyond 3/sqrt(zeta_min))")
 
 
 REGISTRY: dict[str, BasisFamily] = {f.name: f for f in (BSplineFamily(), GaussianFamily())}
