@@ -77,6 +77,20 @@ class BasisFamily:
         """The per-solve set of this family: ``grid`` (r, w), ``wall_radius`` (None without a
         wall), ``threshold``, ``build(kappa)`` -> per-kappa basis, ``sample(basis)``,
         ``node_matrix(basis, sampled)``, ``band_order(basis)``, ``cause()``."""
+    # --- for the audit (relbasis.measures, relbasis.checks)
+
+    def exponents_of(self, solution):
+        """The exponents of the solution's basis that :meth:`edge_fractions` needs (None if none)."""
+        return None
+
+    def overlap_condition(self, solution, kappa: int) -> float:
+        """Condition number of the diagonally scaled overlap of symmetry ``kappa``, as the solve
+        recorded it (NaN where it made none)."""
+        return solution.condition.get(kappa, float("nan"))
+
+    def reach_advice(self, spec, exponents, max_n: int, share: float) -> str:
+        """Advice when the bound states n <= max_n reach beyond the basis (norm share ``share``
+        measured by :meth:`edge_fractions`)."""
         raise NotImplementedError
 
 
@@ -148,6 +162,23 @@ class BSplineFamily(BasisFamily):
         splines = build_splines(config, nucleus)
         return SplineSet(splines, splines.quadrature(b.quadrature), splines.quadrature(1), b.balance, c,
                          float(nucleus.Z) if nucleus.model == "point" else 0.0, b.wall, b.overlap_threshold)
+    def overlap_condition(self, solution, kappa: int) -> float:
+        """The recorded figure, or (where the solve made none) the overlap assembled again from
+        the solution's Gauss–Legendre table and its eigenvalues computed here."""
+        cond = solution.condition.get(kappa, float("nan"))
+        if not np.isfinite(cond):
+            import scipy.linalg as sl
+
+            table = solution.table
+            _, S = solution.bases[kappa].matrices(table, np.zeros_like(table.r))
+            d = 1 / np.sqrt(np.diag(S))
+            s = sl.eigvalsh(S * d[:, None] * d[None, :])
+            cond = s[-1] / s[0] if s[0] > 0 else float("inf")
+        return cond
+
+    def reach_advice(self, spec, exponents, max_n: int, share: float) -> str:
+        return (f"raise r_max to {2 * spec.r_max:.3g} bohr: the bound states n <= {max_n} reach the wall "
+                f"(norm share {share:.1e})")
 
 
 class GaussianFamily(BasisFamily):
@@ -224,6 +255,12 @@ class GaussianFamily(BasisFamily):
         grid = GaussianDiracBasis.build(exps, -1, b.balance, c).grid(nucleus)
         threshold = b.overlap_threshold if b.overlap_threshold is not None else DEFAULT_THRESHOLD
         return GaussianSet(exps, grid, b.balance, c, threshold)
+    def exponents_of(self, solution):
+        return solution.bases[solution.kappas[0]].exponents
+
+    def reach_advice(self, spec, exponents, max_n: int, share: float) -> str:
+        return (f"lower exponent_min to {min(exponents) / 10:.3g}: the bound states n <= {max_n} reach beyond "
+                f"the most diffuse Gaussian (norm share {share:.1e} beyond 3/sqrt(zeta_min))")
 
 
 REGISTRY: dict[str, BasisFamily] = {f.name: f for f in (BSplineFamily(), GaussianFamily())}

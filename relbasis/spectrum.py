@@ -13,7 +13,8 @@ practice for screened and finite-nucleus potentials).  Flags, each with the figu
 
 ``kinetic-balance-residual``
     The exact first radial equation gives Q = c D+P / (2c^2 + eps - V) with D+ = d/dr + kappa/r;
-    ``balance_residual`` = ||Q - c D+P/(2c^2 + eps - V)|| / ||Q|| (L2 over the radial grid).
+    ``balance_residual`` = ||Q - c D+P/(2c^2 + eps - V)|| / ||Q|| (L2 over the radial grid;
+    :func:`balance_residual`, which the audit uses too).
     A converged physical state has a small residual (it measures the basis error of the
     state); a spurious root of an unbalanced basis has a residual of order one.
 ``node-count``
@@ -96,6 +97,22 @@ def count_nodes(P: np.ndarray, w: np.ndarray, floor: float = NODE_FLOOR) -> np.n
 def gap(energies: np.ndarray, c: float) -> np.ndarray:
     """Roots in the bound-state window -2c^2 < eps < 0 (the ones refined and labelled)."""
     return (energies > -2 * c * c) & (energies < 0)
+
+
+def balance_residual(Q: np.ndarray, DP: np.ndarray, energies: np.ndarray, V: np.ndarray, w: np.ndarray,
+                     c: float) -> np.ndarray:
+    """||Q - c D+P/(2c^2 + eps - V)|| / ||Q|| of each column (L2 with the quadrature weights w).
+
+    The first radial equation, exact for an eigenstate, gives Q = c D+P / (2c^2 + eps - V) with
+    D+ = d/dr + kappa/r (Bethe & Salpeter 1957, §14); ``Q`` and ``DP`` hold Q and D+P of the roots
+    (points x roots) with binding energies ``energies``, ``V`` the potential on the same points.
+    The one place this figure is computed: the ``kinetic-balance-residual`` flag of
+    :func:`classify` and the audit (:mod:`relbasis.measures`) both call it.
+    """
+    q_exact = c * DP / (2 * c * c + np.asarray(energies)[None, :] - V[:, None])
+    num = np.sqrt(w @ (Q - q_exact) ** 2)
+    den = np.sqrt(w @ Q**2)
+    return num / np.maximum(den, np.finfo(float).tiny)
 
 
 DIVE_WINDOW = 1.0
@@ -240,11 +257,7 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     if np.any(gap):
         Pg, Qg, DPg = P[:, in_gap], Q[:, in_gap], DP[:, in_gap]
         nodes[gap] = count_nodes(Pg, w)
-        e = energies[gap][None, :]
-        q_exact = c * DPg / (2 * c * c + e - V[:, None])
-        num = np.sqrt(w @ (Q[:, in_gap] - q_exact) ** 2)
-        den = np.sqrt(w @ Qg**2)
-        residual[gap] = num / np.maximum(den, np.finfo(float).tiny)
+        residual[gap] = balance_residual(Qg, DPg, energies[gap], V, w, c)
         if wall is not None and r is not None:
             cavity[gap] = cavity_estimate(energies[gap], Pg, r, w, V, kappa, wall, c)
 

@@ -202,3 +202,93 @@ def test_audit_of_a_finite_nucleus_at_large_c_compares_with_the_same_c():
     sol = relbasis.solve(ion={"Z": 50, "nucleus": "fermi"}, solve={"kappas": [-1, 1]}, c=1e4)
     check = {c.name: c for c in audit(sol).checks}["convergence"]
     assert check.status == "pass" and check.value < 1e-10
+
+
+# --- the audit as a list of checks -------------------------------------------------------------
+
+
+CHECK_ORDER = ["spurious-roots", "continuum-outliers", "node-count", "level-confidence", "dived-levels",
+               "balance-residual", "kinetic-balance", "kinetic-balance-negative", "small-weight", "wall-fraction",
+               "origin-fraction", "virial", "closure", "closure-without-negative", "sum-rule", "overlap-condition",
+               "convergence"]
+
+
+@pytest.mark.parametrize("model", ["point", "fermi"])
+def test_audit_at_large_c_passes_whether_given_c_or_a_solution(model):
+    """c = 1e4 (nonrelativistic limit, docs/nonrelativistic.md): audit(config, c=...) solves with that c,
+    gives the same document as audit(solve(config, c=...)), and both pass (they used to report a
+    false kinetic-balance failure when judged with 1/alpha)."""
+    cfg = {"ion": {"Z": 30, "nucleus": model}, "basis": {"size": 80}, "solve": {"kappas": [-1, 1, -2]}}
+    given_c = audit(cfg, c=1e4, max_n=3)
+    given_solution = audit(relbasis.solve(cfg, c=1e4), max_n=3)
+    assert given_c.solution.c == 1e4
+    for result in (given_c, given_solution):
+        assert result.verdict == "pass", [(c.name, c.status, c.value) for c in result.checks if c.status != "pass"]
+    assert given_c.to_dict() == given_solution.to_dict()
+    assert given_c.to_dict()["constants"]["c_used"] == 1e4
+
+
+def test_audit_runs_the_check_list_in_order():
+    from relbasis.checks import CHECKS, Outcome
+
+    result = audited(ion={"Z": 30, "nucleus": "point"}, basis={"size": 40}, solve={"kappas": [-1]})
+    assert [c.name for c in result.checks] == CHECK_ORDER
+    assert [c["name"] for c in result.to_dict()["checks"]] == CHECK_ORDER
+    assert all(callable(run) for run in CHECKS) and len(CHECKS) == len(CHECK_ORDER) - 1  # closure gives two
+    finite = audited(ion={"Z": 30, "nucleus": "fermi"}, basis={"size": 40}, solve={"kappas": [-1]})
+    assert [c.name for c in finite.checks] == [n for n in CHECK_ORDER if n != "virial"]  # Coulomb field only
+    assert isinstance(Outcome(()), Outcome)
+
+
+def test_audit_refuses_bad_arguments_in_one_line():
+    sol = solve_cached(ion={"Z": 30, "nucleus": "point"}, basis={"size": 40}, solve={"kappas": [-1]})
+    for kwargs, needle in [({"ion": {"Z": 3}}, "ion"), ({"c": 1e4}, "c = 10000.0"), ({"max_n": 0}, "max_n"),
+                           ({"target": -1.0}, "target")]:
+        with pytest.raises(relbasis.InputError) as err:
+            audit(sol, **kwargs)
+        assert needle in str(err.value) and "\n" not in str(err.value)
+    with pytest.raises(relbasis.InputError, match="no check 'virial'.*convergence"):
+        audited(ion={"Z": 30, "nucleus": "fermi"}, basis={"size": 40}, solve={"kappas": [-1]}).check("virial")
+
+
+def test_closure_and_sum_rule_name_a_missing_state():
+    from relbasis.errors import MissingLevelError
+
+    sol = solve_cached(ion={"Z": 92, "nucleus": "point"})
+    for call, needle in [(lambda: closure(sol, -1, 40), "n = 40 for kappa = -1"),
+                         (lambda: closure(sol, -7, 7), "kappa = -7"),
+                         (lambda: sum_rule(sol, -1, 40), "n = 40 for kappa = -1")]:
+        with pytest.raises(MissingLevelError) as err:
+            call()
+        message = str(err.value)
+        assert isinstance(err.value, relbasis.InputError) and "\n" not in message
+        assert needle in message and ("levels present: 1, 2" in message or "solved: -1, +1" in message)
+
+
+def test_balance_residual_is_one_function_for_spectrum_and_audit():
+    """The spectrum's balance residual (kinetic-balance-residual flag) and the audit's figures come
+    from spectrum.balance_residual: recomputed from the solution, the same numbers."""
+    from relbasis.spectrum import balance_residual
+
+    sol = solve_cached(ion={"Z": 92, "nucleus": "point"})
+    r, w = sol.grid
+    V = sol.nucleus.potential(r)
+    for kappa in (-1, 2):
+        spec = sol[kappa]
+        idx = spec.indices("bound")
+        P, Q, DP = sol.sample(kappa, idx, "PQD")
+        assert balance_residual(Q, DP, spec.energies[idx], V, w, sol.c) == pytest.approx(
+            spec.balance_residual[idx], rel=1e-9)
+
+
+def test_audit_modules_do_not_branch_on_the_family():
+    """The audit asks the family registry (relbasis/families.py) for what differs between families."""
+    import pathlib
+    import re
+
+    root = pathlib.Path(relbasis.__file__).parent
+    for name in ("audit.py", "checks.py", "measures.py"):
+        text = (root / name).read_text(encoding="utf-8")
+        for pattern in (r"family\s*==", r"\.table\b", r"\.splines\b", r"gauss_grid", r"\"bspline\"",
+                        r"\"gaussian\"", r"\.exponents\b"):
+            assert not re.search(pattern, text), (name, pattern)

@@ -34,8 +34,9 @@ LAYERS: tuple[tuple[str, ...], ...] = (
     ("spectrum",),
     # 10 the solver, then what is computed from a solution
     ("solver",),
-    ("integrals", "critical", "audit", "plots", "reader"),
-    ("writer", "scan"),
+    ("integrals", "critical", "plots", "reader", "measures"),
+    ("checks", "writer", "scan"),
+    ("audit",),
     ("report",),
     # 14 the command line and the package's front door
     ("cli",),
