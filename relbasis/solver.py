@@ -55,11 +55,7 @@ class Solution:
     @property
     def grid(self) -> tuple[np.ndarray, np.ndarray]:
         """Radial quadrature points and weights (r, w) on which the functions are examined."""
-        if self.family_set is not None:
-            return self.family_set.grid
-        if self.table is not None:
-            return self.table.r.ravel(), self.table.w.ravel()
-        return self.gauss_grid
+        return self.family_set.grid
 
     def sample(self, kappa: int, roots=None, channels="PQDM") -> tuple[np.ndarray, ...]:
         """Components of the chosen roots of kappa on :attr:`grid`: names "P", "Q", "DP" (D+P),
