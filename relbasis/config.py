@@ -47,13 +47,13 @@ from .constants import C, FM_BOHR
 from .errors import ConfigError, InputError
 from .outputs import checked_path, read_input
 from .validate import suggest
-from .vocabulary import BALANCES_OF, FAMILIES, KNOT_KINDS, MODELS, RADIUS_CHOICES, WALLS, orbital_l
+from .vocabulary import BALANCES_OF, DEFAULT_SIZES, FAMILIES, KEY_STYLES, KNOT_KINDS, MODELS, RADIUS_CHOICES, WALLS, orbital_l
 from .vocabulary import BALANCES, GAUSSIAN_BALANCES  # noqa: F401  (public here too, as before)
 
 if TYPE_CHECKING:  # annotations only; resolving a config imports nucleus inside the functions that need it
     from .nucleus import Nucleus
 
-DEFAULT_SIZE = {"bspline": 100, "gaussian": 40}
+DEFAULT_SIZE = DEFAULT_SIZES  # per family (relbasis.vocabulary)
 DEFAULT_CAVITY = 250.0
 """Default cavity radius times Z (bohr): r_max = 250/Z with the default 100 splines holds the
 point-nucleus levels n <= 7 of |kappa| <= 4 to 2e-12 (Z <= 100) and 1e-10 (Z = 118); the
@@ -222,12 +222,13 @@ _GAUSSIAN_ONLY = ("exponent_min", "exponent_max", "exponents")
 def _check_basis(d: dict) -> BasisSpec:
     b = BasisSpec()
     kw = {}
-    family = _choice("basis.family", d["family"], FAMILIES) if "family" in d else b.family
+    family = _choice("basis.family", d["family"], tuple(KEY_STYLES)) if "family" in d else b.family
     kw["family"] = family
-    wrong = [k for k in (_GAUSSIAN_ONLY if family == "bspline" else _BSPLINE_ONLY) if d.get(k) is not None]
+    knots_style = KEY_STYLES[family] == "knots"
+    wrong = [k for k in (_GAUSSIAN_ONLY if knots_style else _BSPLINE_ONLY) if d.get(k) is not None]
     if wrong:
-        other = "gaussian" if family == "bspline" else "bspline"
-        raise ConfigError(f"basis.{wrong[0]} applies to family = {other!r}, not {family!r}")
+        other = ", ".join(repr(f) for f, st in KEY_STYLES.items() if st != KEY_STYLES[family])
+        raise ConfigError(f"basis.{wrong[0]} applies to family = {other}, not {family!r}")
     balances = BALANCES_OF[family]
     if "balance" in d:
         kw["balance"] = _choice("basis.balance", d["balance"], balances)
@@ -239,7 +240,7 @@ def _check_basis(d: dict) -> BasisSpec:
         thr = _real("basis.overlap_threshold", d["overlap_threshold"])
         kw["overlap_threshold"] = _within("basis.overlap_threshold", thr, THRESHOLD_MIN, THRESHOLD_MAX,
                                           why="typical 1e-12..1e-8; below, rounding noise is kept", hi_open=True)
-    if family == "gaussian":
+    if not knots_style:
         return replace(b, **kw, **_check_exponents(d, kw.get("size")))
     order = _integer("basis.order", d["order"], 2) if d.get("order") is not None else DEFAULT_ORDER
     if order > MAX_ORDER:
@@ -468,7 +469,7 @@ def check_numerics(config: Config, c: float = C, given: BasisSpec | None = None,
             return "set by basis.knots"
         return f"the default for Z = {Z:g}; give basis.{key}" if Z is not None else f"the default; give basis.{key}"
 
-    if b.family == "gaussian":
+    if KEY_STYLES[b.family] == "exponents":
         _check_gaussian_numerics(config, note)
         return
     for key in ("r_min", "r_max", "r_scale"):
@@ -538,11 +539,11 @@ def _resolve(config: Config, c: float = C) -> tuple[Config, Nucleus]:
         raise InputError(
             f"Z = {Z:g} gives {what} = {Z / c:.4f} >= 1: a point nucleus has no 1s solution; use a finite nucleus (ion.nucleus = 'fermi')"
         )
-    if nuc.model == "point" and Z * C / c > POINT_Z_SAFE and b.family == "bspline":
+    if nuc.model == "point" and Z * C / c > POINT_Z_SAFE and KEY_STYLES[b.family] == "knots":
         warnings.warn(point_accuracy_warning(Z * C / c), AccuracyWarning, stacklevel=3)
     ion = replace(config.ion, Z=config.ion.Z, A=nuc.A, nucleus=nuc.model, rms_radius_fm=nuc.rms_radius_fm,
                   radius=None)  # the radius itself is filled in; where it came from: nuc.rms_radius_source
-    if b.family == "gaussian":
+    if KEY_STYLES[b.family] == "exponents":
         if Z == 0:
             raise InputError("ion.Z = 0 (a free particle) needs the B-spline family and basis.r_max (the cavity radius)")
         return Config(ion, _resolve_gaussian(b, nuc, c), config.solve), nuc
@@ -636,5 +637,5 @@ def _resolve_gaussian(b: BasisSpec, nuc: Nucleus, c: float = C) -> BasisSpec:
     zmax = b.exponent_max if b.exponent_max is not None else hi
     if zmin >= zmax:
         raise InputError(f"basis.exponent_min = {zmin:g} must be smaller than basis.exponent_max = {zmax:g}")
-    size = b.size if b.size is not None else DEFAULT_SIZE["gaussian"]
+    size = b.size if b.size is not None else DEFAULT_SIZE.get(b.family, DEFAULT_SIZE["gaussian"])
     return replace(b, order=None, knots=None, size=size, exponent_min=zmin, exponent_max=zmax)

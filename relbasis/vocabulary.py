@@ -26,6 +26,36 @@ GAUSSIAN_BALANCES = ("none", "rkb", "dkb")
 """Small-component constructions of the Gaussian family (``basis.balance``)."""
 BALANCES_OF = {"bspline": BALANCES, "gaussian": GAUSSIAN_BALANCES}
 """Valid ``basis.balance`` per family."""
+KEY_STYLES = {"bspline": "knots", "gaussian": "exponents"}
+"""Which [basis] keys a family takes: "knots" (order, r_min, r_max, r_scale, knots, quadrature,
+wall: functions on a knot grid in a cavity) or "exponents" (exponent_min, exponent_max,
+exponents: functions of given decay rates, no wall).  The config validates and resolves a
+family by its style; a new family registers here (:func:`register_family`) and in
+:mod:`relbasis.families`."""
+
+
+def register_family(name: str, style: str, balances: tuple[str, ...], default_size: int | None = None) -> None:
+    """Make ``basis.family = name`` valid: its key style and balances (for a family added by
+    a module or a test; the two built-in families are listed above)."""
+    if style not in ("knots", "exponents"):
+        raise ValueError(f"key style {style!r}: 'knots' or 'exponents'")
+    KEY_STYLES[name] = style
+    BALANCES_OF[name] = tuple(balances)
+    if default_size is not None:
+        DEFAULT_SIZES[name] = int(default_size)
+
+
+def unregister_family(name: str) -> None:
+    """Undo :func:`register_family` (the built-in families cannot be removed)."""
+    if name in FAMILIES:
+        raise ValueError(f"{name!r} is a built-in family")
+    KEY_STYLES.pop(name, None)
+    BALANCES_OF.pop(name, None)
+    DEFAULT_SIZES.pop(name, None)
+
+
+DEFAULT_SIZES = {"bspline": 100, "gaussian": 40}
+"""Functions per component when ``basis.size`` is not given, per family."""
 WALLS = ("dirichlet", "bag")
 """Boundary conditions at the cavity wall of the B-spline family (``basis.wall``)."""
 KNOT_KINDS = ("exponential", "log-linear")
