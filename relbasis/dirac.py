@@ -52,6 +52,8 @@ from .errors import InputError
 from .sampling import channel_names
 
 from .vocabulary import BALANCES, WALLS  # noqa: E402,F401  (the config vocabulary)
+FAMILY_KINDS = {"none": ("large", "small"), "dkb": ("upper", "lower")}
+"""The function families of each balance, in the order of the rows of H (the exported file records them)."""
 
 
 @dataclass(frozen=True)

@@ -73,6 +73,16 @@ class BasisFamily:
         """Advice that gives the far-out states more room."""
         raise NotImplementedError
 
+    def read_layout(self, attrs: dict, reading) -> tuple[str, int | None]:
+        """(wall, order) of an exported file's root attributes, checked (``reading``: the
+        reader's helpers; raise ``reading.Damaged`` with what is wrong)."""
+        return "dirichlet", None
+
+    def read_set(self, reading, attrs: dict, layout, grid):
+        """From an exported file: a function (kappa, group name) -> the per-kappa basis that the
+        stored coefficients belong to, every entry checked through ``reading``."""
+        raise NotImplementedError
+
     def build_set(self, config, nucleus, c: float):
         """The per-solve set of this family: ``grid`` (r, w), ``wall_radius`` (None without a
         wall), ``threshold``, ``build(kappa)`` -> per-kappa basis, ``sample(basis)``,
@@ -153,6 +163,61 @@ class BSplineFamily(BasisFamily):
 
     def cavity_fix(self, spec, factor: float = 1.5) -> str:
         return f"raise r_max to {factor * spec.r_max:.4g} bohr"
+
+    def read_layout(self, attrs, reading):
+        from .config import MAX_ORDER
+        from .vocabulary import WALLS
+
+        wall = attrs.get("wall", "")
+        wall = "dirichlet" if isinstance(wall, str) and wall == "" else wall
+        if not isinstance(wall, str) or wall not in WALLS:
+            raise reading.Damaged(f"has wall = {reading.show(wall)}; valid are {', '.join(WALLS)}")
+        order = attrs.get("order")
+        if not reading.is_int(order) or not 2 <= order <= MAX_ORDER:
+            raise reading.Damaged(f"has order = {reading.show(order)}: expected a B-spline order, an integer from 2 "
+                                  f"to {MAX_ORDER}")
+        return wall, order
+
+    def read_set(self, reading, attrs, layout, grid):
+        """The knots (checked: enough, non-decreasing, no knot more than order times, from 0),
+        then per kappa the recorded function families and their spline indices."""
+        from .bspline import BSplineBasis
+        from .dirac import FAMILY_KINDS, DiracBasis, Family
+
+        order = layout.order
+        t = reading.finite("basis/knots", reading.array("basis/knots", "f", (None,), "(splines + order,)"))
+        if t.size < 2 * order + 1:
+            raise reading.Damaged(f"entry 'basis/knots' has {t.size} knots, fewer than 2 * order + 1 = {2 * order + 1}")
+        reading.first("basis/knots", np.diff(t) < 0, "decreases", "expected a non-decreasing knot sequence")
+        reading.first("basis/knots", t[order:] <= t[:-order], f"repeats a knot more than order = {order} times")
+        if t[0] < 0:
+            raise reading.Damaged(f"entry 'basis/knots' starts at {t[0]:g} < 0")
+        splines = BSplineBasis(t, order)
+        if grid[-1] > splines.r_max:
+            raise reading.Damaged(f"entry 'grid/r' reaches {grid[-1]:g} bohr, beyond the last knot "
+                                  f"r_max = {splines.r_max:g}")
+
+        def rebuild(kappa: int, g: str):
+            kinds = reading.array(f"{g}/family_kinds", "s", (None,), "(families,)")
+            expected = FAMILY_KINDS[layout.balance]
+            if tuple(kinds) != expected:
+                raise reading.Damaged(f"entry '{g}/family_kinds' is {reading.show(list(kinds))}, expected "
+                                      f"{list(expected)} for balance {layout.balance!r}")
+            radius = attrs.get(f"{g}/balance_radius", 0.0)
+            if not (reading.finite_real(radius) and radius >= 0):
+                raise reading.Damaged(f"has {g}/balance_radius = {reading.show(radius)}: expected a finite length "
+                                      ">= 0 (bohr)")
+            fams = []
+            for i, kind in enumerate(kinds):
+                name = f"{g}/family_{i}_splines"
+                idx = reading.array(name, "i", (None,), "(functions,)")
+                if idx.size == 0 or idx.min() < 0 or idx.max() >= splines.size or np.any(np.diff(idx) <= 0):
+                    raise reading.Damaged(f"entry {name!r} must hold increasing spline indices from 0 to "
+                                          f"{splines.size - 1}")
+                fams.append(Family(str(kind), idx.astype(np.int64), float(radius)))
+            return DiracBasis(splines, kappa, layout.balance, layout.c, tuple(fams), layout.wall)
+
+        return rebuild
 
     def build_set(self, config, nucleus, c: float):
         """What a solve of a resolved config shares across symmetries (:class:`relbasis.dirac.SplineSet`)."""
@@ -242,6 +307,16 @@ class GaussianFamily(BasisFamily):
     def cavity_fix(self, spec, factor: float = 10.0) -> str:
         zmin = spec.exponent_min if spec.exponents is None else min(spec.exponents)
         return f"lower exponent_min to {zmin / factor:.3g}"
+
+    def read_set(self, reading, attrs, layout, grid):
+        """The exponents (checked: finite, positive, not empty); every kappa follows from them."""
+        from .dirac_gaussian import GaussianDiracBasis
+
+        exps = reading.finite("basis/exponents", reading.array("basis/exponents", "f", (None,), "(Gaussians,)"))
+        reading.first("basis/exponents", ~(exps > 0), "holds an exponent <= 0", "expected positive exponents (bohr^-2)")
+        if exps.size == 0:
+            raise reading.Damaged("entry 'basis/exponents' is empty")
+        return lambda kappa, g: GaussianDiracBasis.build(exps, kappa, layout.balance, layout.c)
 
     def build_set(self, config, nucleus, c: float):
         """What a solve of a resolved config shares across symmetries (:class:`relbasis.dirac_gaussian.GaussianSet`)."""

@@ -19,9 +19,6 @@ import h5py
 import numpy as np
 
 from . import constants
-from .bspline import BSplineBasis
-from .dirac import DiracBasis, Family
-from .dirac_gaussian import GaussianDiracBasis
 from .errors import InputError, MissingLevelError
 from .layout import FORMAT, LAYOUT_VERSION
 
@@ -37,7 +34,6 @@ from .layout import FORMAT, LAYOUT_VERSION
 # their header, before any byte of their data is read.
 
 _BRANCHES = ("negative", "bound", "positive", "spurious")
-_FAMILY_KINDS = {"none": ("large", "small"), "dkb": ("upper", "lower")}  # B-spline families per balance
 _MAX_KAPPA = 10_000  # far beyond any use; bounds the work of rebuilding a Gaussian basis (r^(l+1))
 _INFLATE = 1100
 """Deflate makes at most 1032 bytes from one stored byte: a dataset or archive member that claims
@@ -493,8 +489,8 @@ def _finite_real(v) -> bool:
 
 
 def _layout(attrs: dict) -> _Layout:
-    from .config import FAMILIES, MAX_ORDER
-    from .vocabulary import BALANCES, GAUSSIAN_BALANCES, WALLS
+    from .families import REGISTRY, family_of
+    from .vocabulary import BALANCES_OF
 
     if "format" not in attrs:
         raise _Damaged("is not a relbasis basis file: it has no 'format' attribute (written by another program?)")
@@ -511,17 +507,9 @@ def _layout(attrs: dict) -> _Layout:
                        f"{LAYOUT_VERSION} only: update relbasis to read it")
     if version != LAYOUT_VERSION:
         raise _Damaged(f"has layout version {version}; this relbasis reads version {LAYOUT_VERSION} only")
-    family = _choice(attrs, "family", FAMILIES)
-    balance = _choice(attrs, "balance", BALANCES if family == "bspline" else GAUSSIAN_BALANCES)
-    wall, order = "dirichlet", None
-    if family == "bspline":
-        wall = attrs.get("wall", "")
-        wall = "dirichlet" if isinstance(wall, str) and wall == "" else wall
-        if not isinstance(wall, str) or wall not in WALLS:
-            raise _Damaged(f"has wall = {_show(wall)}; valid are {', '.join(WALLS)}")
-        order = attrs.get("order")
-        if not _is_int(order) or not 2 <= order <= MAX_ORDER:
-            raise _Damaged(f"has order = {_show(order)}: expected a B-spline order, an integer from 2 to {MAX_ORDER}")
+    family = _choice(attrs, "family", tuple(REGISTRY))
+    balance = _choice(attrs, "balance", BALANCES_OF[family])
+    wall, order = family_of(family).read_layout(attrs, _READING)
     for key in ("c_used", "c"):
         if key in attrs and not (_finite_real(attrs[key]) and attrs[key] > 0):
             raise _Damaged(f"has {key} = {_show(attrs[key])}: expected a finite positive speed of light (atomic units)")
@@ -634,51 +622,48 @@ def _assemble(layout: _Layout, attrs: dict, src, kappa_names, integral_names) ->
     if src.entry("quadrature/r") is not None or src.entry("quadrature/w") is not None:
         qr = _finite("quadrature/r", _get(src, "quadrature/r", "f", (None,), "(points,)"))
         _finite("quadrature/w", _get(src, "quadrature/w", "f", qr.shape, "(points,) like quadrature/r"))
-    if layout.family == "bspline":
-        splines = _splines(src, layout.order)
-        if grid[-1] > splines.r_max:
-            raise _Damaged(f"entry 'grid/r' reaches {grid[-1]:g} bohr, beyond the last knot r_max = {splines.r_max:g}")
-        rebuild = lambda kappa, g: _spline_basis(src, attrs, layout, splines, kappa, g)  # noqa: E731
-    else:
-        exps = _finite("basis/exponents", _get(src, "basis/exponents", "f", (None,), "(Gaussians,)"))
-        _first("basis/exponents", ~(exps > 0), "holds an exponent <= 0", "expected positive exponents (bohr^-2)")
-        if exps.size == 0:
-            raise _Damaged("entry 'basis/exponents' is empty")
-        rebuild = lambda kappa, g: GaussianDiracBasis.build(exps, kappa, layout.balance, layout.c)  # noqa: E731
+    from .families import family_of
+
+    rebuild = family_of(layout.family).read_set(_Reading(src), attrs, layout, grid)
     blocks = {kappa: _block(src, kappa, rebuild(kappa, f"kappa_{kappa}"), grid) for kappa in kappas}
     ints = _integrals(src, attrs, blocks, integral_names)
     return BasisFile(attrs, layout.config, layout.ion, grid, blocks, ints)
 
 
-def _splines(src, order: int) -> BSplineBasis:
-    t = _finite("basis/knots", _get(src, "basis/knots", "f", (None,), "(splines + order,)"))
-    if t.size < 2 * order + 1:
-        raise _Damaged(f"entry 'basis/knots' has {t.size} knots, fewer than 2 * order + 1 = {2 * order + 1}")
-    _first("basis/knots", np.diff(t) < 0, "decreases", "expected a non-decreasing knot sequence")
-    _first("basis/knots", t[order:] <= t[:-order], f"repeats a knot more than order = {order} times")
-    if t[0] < 0:
-        raise _Damaged(f"entry 'basis/knots' starts at {t[0]:g} < 0")
-    return BSplineBasis(t, order)
+class _Reading:
+    """What a family's reader (relbasis.families: ``read_layout``, ``read_set``) needs of a file:
+    its datasets read only after their kind and shape were found right, the checks that say
+    where a value is bad, and the error that becomes the one-line InputError."""
+
+    def __init__(self, src=None):
+        self.src = src
+
+    def array(self, name: str, kind: str, shape: tuple, dims: str = "", required: bool = True):
+        return _get(self.src, name, kind, shape, dims, required)
+
+    @staticmethod
+    def finite(name: str, a, *, nan: bool = False):
+        return _finite(name, a, nan=nan)
+
+    @staticmethod
+    def first(name: str, bad, what: str, fix: str = "") -> None:
+        _first(name, bad, what, fix)
+
+    @staticmethod
+    def show(value) -> str:
+        return _show(value)
+
+    @staticmethod
+    def is_int(value) -> bool:
+        return _is_int(value)
+
+    @staticmethod
+    def finite_real(value) -> bool:
+        return _finite_real(value)
 
 
-def _spline_basis(src, attrs: dict, layout: _Layout, splines: BSplineBasis, kappa: int, g: str) -> DiracBasis:
-    """The two-component basis of one kappa, from the families the file records."""
-    kinds = _get(src, f"{g}/family_kinds", "s", (None,), "(families,)")
-    expected = _FAMILY_KINDS[layout.balance]
-    if tuple(kinds) != expected:
-        raise _Damaged(f"entry '{g}/family_kinds' is {_show(list(kinds))}, expected {list(expected)} "
-                       f"for balance {layout.balance!r}")
-    radius = attrs.get(f"{g}/balance_radius", 0.0)
-    if not (_finite_real(radius) and radius >= 0):
-        raise _Damaged(f"has {g}/balance_radius = {_show(radius)}: expected a finite length >= 0 (bohr)")
-    fams = []
-    for i, kind in enumerate(kinds):
-        name = f"{g}/family_{i}_splines"
-        idx = _get(src, name, "i", (None,), "(functions,)")
-        if idx.size == 0 or idx.min() < 0 or idx.max() >= splines.size or np.any(np.diff(idx) <= 0):
-            raise _Damaged(f"entry {name!r} must hold increasing spline indices from 0 to {splines.size - 1}")
-        fams.append(Family(str(kind), idx.astype(np.int64), float(radius)))
-    return DiracBasis(splines, kappa, layout.balance, layout.c, tuple(fams), layout.wall)
+_Reading.Damaged = _Damaged
+_READING = _Reading()
 
 
 def _block(src, kappa: int, basis, grid: np.ndarray) -> KappaBlock:
