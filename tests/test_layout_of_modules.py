@@ -45,3 +45,19 @@ def test_the_scan_package_reexports_the_objects_of_its_modules():
         home = getattr(obj, "__module__", None)
         if home is not None and home.startswith("relbasis.scan."):
             assert getattr(importlib.import_module(home), name) is obj
+
+
+def test_no_module_outside_the_families_branches_on_the_family():
+    """Only the family modules, the config (which validates by key style) and the registries name
+    the families: everything else asks relbasis.families (common practice: one registry)."""
+    import re
+    from pathlib import Path
+
+    allowed = {"config.py", "dirac.py", "dirac_gaussian.py", "bspline.py", "gaussian.py", "families.py",
+               "vocabulary.py"}
+    pattern = re.compile(r"family\s*[!=]=|==\s*\"(bspline|gaussian)\"|table is (not )?None|splines is (not )?None"
+                         r"|isinstance\([^)]*(DiracBasis|GaussianDiracBasis)")
+    root = Path(relbasis.__file__).parent
+    hits = [f"{p.relative_to(root)}:{i}: {line.strip()}" for p in sorted(root.rglob("*.py")) if p.name not in allowed
+            for i, line in enumerate(p.read_text(encoding="utf-8").splitlines(), 1) if pattern.search(line)]
+    assert not hits, hits
