@@ -393,13 +393,17 @@ def load(path) -> Config:
     InputError
         One line naming the file and what is wrong with it (missing, not TOML, a bad key or value).
     """
+    return from_dict(read_toml(path))
+
+
+def read_toml(path) -> dict:
+    """The keys of a TOML config file as written (not yet validated; :func:`from_dict` does that)."""
     p = checked_path(path, "config file")
     text = read_input(p, "config file")
     try:
-        data = tomllib.loads(text)
+        return tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
         raise InputError(f"config file {str(p)!r} is not valid TOML: {err}") from None
-    return from_dict(data)
 
 
 # ----------------------------------------------------------------------------- defaults

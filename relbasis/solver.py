@@ -17,7 +17,7 @@ from . import constants
 from .version import __version__
 from .analytic import dirac_coulomb_energy
 from .bspline import BSplineBasis, QuadratureTable, exponential_knots, knots_from_breakpoints, log_linear_knots
-from .config import BasisSpec, Config, IonSpec, SolveSpec, from_dict, load, resolve
+from .config import BasisSpec, Config, IonSpec, SolveSpec, from_dict, read_toml, resolve
 from .constants import C
 from .dirac import DiracBasis
 from .dirac_gaussian import GaussianDiracBasis
@@ -155,8 +155,9 @@ def as_config(config=None, **overrides) -> Config:
         data = {}
     elif isinstance(config, dict):
         data = {k: dict(v) if isinstance(v, dict) else v for k, v in config.items()}
-    else:
-        data = load(config).to_dict()
+    else:  # the file is checked on its own, then merged as written: an override (a family,
+        data = read_toml(config)  # say) then meets no default of the file's own family
+        from_dict(data)
     for section, values in overrides.items():
         if isinstance(values, (IonSpec, BasisSpec, SolveSpec)):  # a spec object: its keys that are set
             values = {k: v for k, v in asdict(values).items() if v is not None}

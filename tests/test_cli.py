@@ -165,3 +165,9 @@ def test_gaussian_input_errors(capsys, argv, needle):
     code, out, err = run(capsys, *argv)
     assert code == 2 and out == "" and len(err.strip().splitlines()) == 1
     assert needle in err
+
+
+def test_a_family_flag_overrides_the_config_file_family(capsys):
+    """--family gaussian on a B-spline config (the demo) meets no B-spline default of the file."""
+    assert main(["levels", "--family", "gaussian", "--kappas", "-1"]) == 0
+    assert "basis: gaussian" in capsys.readouterr().out
