@@ -1,9 +1,14 @@
 """One call from a config to the sorted spectra of every requested symmetry.
 
-``solve(config)`` builds the nucleus and the B-spline set once, then for each kappa assembles
-H and S (:mod:`relbasis.dirac`), finds every root (:mod:`relbasis.eigen`), refines the roots in
-the bound-state window, and sorts them (:mod:`relbasis.spectrum`).  Negative kappas are done
-first so that the duplicate-level check of kappa > 0 can look at its partner -kappa.
+``solve(config)`` resolves the config, builds the nucleus and the family's per-solve set once
+(:meth:`relbasis.families.BasisFamily.build_set`: the B-spline set and its quadrature, or the
+Gaussian exponents and their grid), then runs one pipeline per kappa for every family
+(:func:`solve_symmetry`): the basis of kappa, H = T + the terms of the Hamiltonian
+(:mod:`relbasis.hamiltonian`: the nucleus, and any term the caller adds), every root
+(:mod:`relbasis.eigen`), refinement of the roots in the bound-state window, and the sorting
+(:mod:`relbasis.spectrum`).  Negative kappas are done first so that the duplicate-level check
+of kappa > 0 can look at its partner -kappa.  A reduced basis is solved first for the error
+estimate of every level (:mod:`relbasis.confidence`).
 """
 
 from __future__ import annotations
@@ -16,13 +21,12 @@ import numpy as np
 from . import constants
 from .version import __version__
 from .analytic import dirac_coulomb_energy
-from .bspline import BSplineBasis, QuadratureTable, exponential_knots, knots_from_breakpoints, log_linear_knots
+from .bspline import BSplineBasis, QuadratureTable
 from .config import BasisSpec, Config, IonSpec, SolveSpec, from_dict, read_toml, resolve
 from .constants import C
-from .dirac import DiracBasis
+from .dirac import FERMI_SURFACE_KNOTS, DiracBasis, build_splines  # noqa: F401  (public here as before)
 from .dirac_gaussian import GaussianDiracBasis
-from .eigen import DEFAULT_THRESHOLD, Eigensystem, refine, shift_invert, solve as eigensolve
-from .gaussian import even_tempered
+from .eigen import Eigensystem, refine, shift_invert, solve as eigensolve
 from .errors import InputError, MissingLevelError, option
 from .finite import check_matrices, check_roots
 from . import budget
@@ -197,49 +201,6 @@ def solve_symmetry(fset, kappa: int, terms, partner: Spectrum | None = None,
     return basis, with_flags(spec, precision_flags(system, moved)), system, sampled
 
 
-def solve_kappa(kappa: int, splines: BSplineBasis, table: QuadratureTable, V: np.ndarray, balance: str,
-                point_charge: float, partner: Spectrum | None = None,
-                coarse: QuadratureTable | None = None,
-                threshold: float | None = None, wall: str = "dirichlet",
-                c: float = C, reference: dict[int, float] | None = None) -> tuple[DiracBasis, Spectrum, Eigensystem]:
-    """Basis, matrices, roots, refinement and sorting for one symmetry.
-
-    ``coarse`` (one point per knot interval) serves to fix the sign of the continuum roots
-    cheaply; roots in the bound-state window are examined on the full table.
-    """
-    basis = DiracBasis.build(splines, kappa, balance, c, point_charge, wall)
-    local = basis.local_channels(table)
-    H, S = basis.matrices(table, V, local)
-    cause = _spline_cause(splines, c)
-    check_matrices(kappa, H, S, cause)
-    w = table.w.ravel()
-    system, moved = _roots(H, S, eigensolve(H, S, threshold), c, lambda v: local.evaluate(v, "PQ"), w,
-                           basis.band_order())
-    check_roots(kappa, system.energies, system.vectors, system.error, cause)
-    window = examined(system.energies, c)
-    coarse = coarse or splines.quadrature(1)
-    P_all = basis.local_channels(coarse).dense("P", basis.size) @ system.vectors
-    P, Q, DP = local.evaluate(system.vectors[:, window], "PQD")
-    external = duplicate_roots(kappa, system.energies, partner)
-    spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, w, V.ravel(), c, external,
-                    r=table.r.ravel(), wall=splines.r_max, reference=reference)
-    return basis, with_flags(spec, precision_flags(system, moved)), system
-
-
-def _spline_cause(splines: BSplineBasis, c: float) -> str:
-    """What a non-finite number of a B-spline solve points to (relbasis.finite)."""
-    t = splines.knots
-    r_min = float(t[t > 0][0]) if np.any(t > 0) else float("nan")
-    return (f"the basis (r_min = {r_min:g}, r_max = {splines.r_max:g} bohr, {splines.size} splines, c = {c:g}) "
-            "lies outside what double precision represents; see the valid ranges in docs/config.md")
-
-
-def _gaussian_cause(exponents: np.ndarray, c: float) -> str:
-    """What a non-finite number of a Gaussian solve points to (relbasis.finite)."""
-    return (f"the Gaussian exponents {float(np.min(exponents)):.3g}..{float(np.max(exponents)):.3g} bohr^-2 "
-            f"(c = {c:g}) lie outside what double precision represents; see the valid ranges in docs/config.md")
-
-
 def _roots(H, S, system: Eigensystem, c: float, sample, w, order=None) -> tuple[Eigensystem, np.ndarray]:
     """From eigh's roots to the final ones (:mod:`relbasis.eigen`, :mod:`relbasis.precision`):
     shift and invert where a root above the edge has lost digits and is too close to others for
@@ -266,28 +227,6 @@ def _roots(H, S, system: Eigensystem, c: float, sample, w, order=None) -> tuple[
     if moved.any():  # refine re-sorts: find the moved roots again (they sit alone just below the edge)
         moved = system.energies == np.nextafter(floor, -np.inf)
     return system, moved
-
-
-def solve_kappa_gaussian(kappa: int, exponents: np.ndarray, nucleus: Nucleus, balance: str, grid,
-                         threshold: float | None, partner: Spectrum | None = None, c: float = C,
-                         reference: dict[int, float] | None = None):
-    """The Gaussian counterpart of :func:`solve_kappa` (dense functions, one radial grid)."""
-    basis = GaussianDiracBasis.build(exponents, kappa, balance, c)
-    r, w = grid
-    H, S = basis.matrices(nucleus, grid)
-    cause = _gaussian_cause(exponents, c)
-    check_matrices(kappa, H, S, cause)
-    system = eigensolve(H, S, threshold if threshold is not None else DEFAULT_THRESHOLD)
-    system, moved = _roots(H, S, system, c, lambda v: tuple(m @ v for m in basis.components(r, ("P", "Q"))), w)
-    check_roots(kappa, system.energies, system.vectors, system.error, cause)
-    window = examined(system.energies, c)
-    Pm, Qm, Dm = basis.components(r, ("P", "Q", "DP"))
-    P_all = Pm @ system.vectors
-    v = system.vectors[:, window]
-    external = duplicate_roots(kappa, system.energies, partner)
-    spec = classify(kappa, system.energies, system.vectors, P_all, P_all[:, window], Qm @ v, Dm @ v, w,
-                    nucleus.potential(r), c, external, r=r, wall=None, reference=reference)
-    return basis, with_flags(spec, precision_flags(system, moved)), system
 
 
 C_MAX = 1e10

@@ -28,8 +28,9 @@ import scipy.linalg as sl
 from relbasis.config import resolve
 from relbasis.constants import C
 from relbasis.dirac_gaussian import GaussianDiracBasis
-from relbasis.gaussian import even_tempered
-from relbasis.solver import as_config, build_splines, solve, solve_kappa, solve_kappa_gaussian
+from relbasis.families import family_of
+from relbasis.hamiltonian import nucleus_term
+from relbasis.solver import as_config, solve, solve_symmetry
 
 
 def best_of(fn, repeat):
@@ -62,14 +63,12 @@ def main() -> None:
     print(f"{'size':>5} {'rows':>5} {'relbasis ms':>12} {'bare eigh ms':>13} {'ratio':>6}")
     for size in (40, 60, 80, 120, 160):
         cfg, nuc = resolve(as_config(None, ion={"Z": args.z, "nucleus": "point"}, basis={"size": size}))
-        splines = build_splines(cfg, nuc)
-        table = splines.quadrature(cfg.basis.quadrature)
-        V = nuc.potential(table.r)
-        coarse = splines.quadrature(1)
-        basis, _, _ = solve_kappa(-1, splines, table, V, "dkb", float(args.z), None, coarse)
-        H, S = basis.matrices(table, V)
+        fset = family_of(cfg).build_set(cfg, nuc, C)
+        terms = (nucleus_term(nuc),)
+        basis = fset.build(-1)
+        H, S = basis.matrices(fset.table, nuc.potential(fset.table.r))
 
-        ours = best_of(lambda: solve_kappa(-1, splines, table, V, "dkb", float(args.z), None, coarse), args.repeat)
+        ours = best_of(lambda: solve_symmetry(fset, -1, terms), args.repeat)
         bare = best_of(lambda: sl.eigh(H, S), args.repeat)
         print(f"{size:>5} {H.shape[0]:>5} {ours * 1e3:>12.2f} {bare * 1e3:>13.2f} {ours / bare:>6.2f}")
 
@@ -82,12 +81,11 @@ def main() -> None:
     for size in (20, 30, 40, 60, 80):
         cfg, nuc = resolve(as_config(None, ion={"Z": args.z, "nucleus": "gauss"},
                                      basis={"family": "gaussian", "balance": "rkb", "size": size}))
-        exps = even_tempered(size, cfg.basis.exponent_min, cfg.basis.exponent_max)
-        basis = GaussianDiracBasis.build(exps, 1, "rkb", C)
-        grid = basis.grid(nuc)
-        H, S = basis.matrices(nuc, grid)
+        fset = family_of(cfg).build_set(cfg, nuc, C)
+        exps, grid = fset.exponents, fset.grid
+        H, S = GaussianDiracBasis.build(exps, 1, "rkb", C).matrices(nuc, grid)
         integrals = best_of(lambda: GaussianDiracBasis.build(exps, 1, "rkb", C).matrices(nuc, grid), args.repeat)
-        ours = best_of(lambda: solve_kappa_gaussian(1, exps, nuc, "rkb", grid, None), args.repeat)
+        ours = best_of(lambda: solve_symmetry(fset, 1, (nucleus_term(nuc),)), args.repeat)
         bare = best_of(lambda: bare_eigh(H, S), args.repeat)
         print(f"{size:>5} {H.shape[0]:>5} {integrals * 1e3:>13.2f} {ours * 1e3:>12.2f} {bare * 1e3:>13.2f} {ours / bare:>6.2f}")
     whole = best_of(lambda: solve(None, ion={"Z": args.z, "nucleus": "gauss"}, basis={"family": "gaussian"}), args.repeat)
