@@ -19,7 +19,7 @@ from tqdm import tqdm
 
 from . import constants
 from .version import __version__
-from .errors import InputError
+from .errors import InputError, option
 from .layout import BLOCKS, FORMAT, LAYOUT_VERSION
 from .outputs import atomic_group, atomic_write, checked_path
 from .validate import items
@@ -34,12 +34,12 @@ def check_target(path, force: bool) -> Path:
     """
     p = Path(path)
     if p.is_dir():
-        raise InputError(f"--out {str(p)!r} is a directory: give a file name such as {str(p / 'basis.h5')!r}")
+        raise InputError(f"{option('path', '--out')} = {str(p)!r} is a directory: give a file name such as {str(p / 'basis.h5')!r}")
     if not p.parent.is_dir():
         what = "is not a directory" if p.parent.exists() else "does not exist"
-        raise InputError(f"--out {str(p)!r}: {str(p.parent)!r} {what}")
+        raise InputError(f"{option('path', '--out')} = {str(p)!r}: {str(p.parent)!r} {what}")
     if p.suffix not in (".h5", ".hdf5", ".npz"):
-        raise InputError(f"--out {str(p)!r}: give a .h5 (HDF5) or .npz (numpy + JSON) file name")
+        raise InputError(f"{option('path', '--out')} = {str(p)!r}: give a .h5 (HDF5) or .npz (numpy + JSON) file name")
     for q in (p, p.with_suffix(".json")) if p.suffix == ".npz" else (p,):
         if not (q.exists() or q.is_symlink()):
             continue

@@ -9,7 +9,7 @@ import json
 import re
 from pathlib import Path
 
-from ..errors import InputError
+from ..errors import InputError, option
 from ..outputs import atomic_text, atomic_write, read_manifest
 
 
@@ -55,7 +55,7 @@ def claim_folder(out: Path) -> set[str]:
     present = [p.name for p in out.iterdir() if p.name in FIXED_OUTPUTS or _PICTURE.match(p.name)]
     foreign = sorted(n for n in present if n not in ours or not (out / n).is_file() or (out / n).is_symlink())
     if foreign:
-        raise InputError(f"--out {str(out)!r} holds {foreign[0]!r}, which relbasis did not write there: it is never "
+        raise InputError(f"{option('out', '--out')} = {str(out)!r} holds {foreign[0]!r}, which relbasis did not write there: it is never "
                          f"replaced; move it or choose another folder")
     return ours
 
@@ -73,7 +73,7 @@ def write_outputs(out: Path, summary: dict, jobs: int = 1, ours=frozenset()) -> 
     for name in (*FIXED_OUTPUTS[1:], *pictures.values()):
         p = out / name
         if (p.exists() or p.is_symlink()) and name not in ours:
-            raise InputError(f"--out {str(out)!r} holds {name!r}, which relbasis did not write there: it is never "
+            raise InputError(f"{option('out', '--out')} = {str(out)!r} holds {name!r}, which relbasis did not write there: it is never "
                              f"replaced; move it and run the scan again (its results are kept)")
     atomic_text(out / "summary.json", json.dumps(summary, indent=1, sort_keys=True), "write the scan summary")
     lines = []

@@ -9,7 +9,7 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ..errors import InputError
+from ..errors import InputError, option
 from ..outputs import checked_path, directory_for, write_manifest
 from .analysis import analyse
 from .output import _PICTURE, OUTPUT_KIND, claim_folder, write_outputs
@@ -59,12 +59,12 @@ def _execute(todo: list[Unit], jobs: int, scheduler: str | None, store: Store, p
             try:
                 from distributed import Client
             except ImportError:
-                raise InputError("--scheduler needs the 'cluster' extra: pip install 'relbasis[cluster]'") from None
+                raise InputError(f"{option('scheduler', '--scheduler')} needs the 'cluster' extra: pip install 'relbasis[cluster]'") from None
             try:
                 client = Client(scheduler, timeout="10s")
             except (OSError, TimeoutError, ValueError, TypeError) as err:
                 reason = (str(err).splitlines() or [type(err).__name__])[0]
-                raise InputError(f"--scheduler {scheduler!r}: cannot reach the scheduler ({reason})") from None
+                raise InputError(f"{option('scheduler', '--scheduler')} = {scheduler!r}: cannot reach the scheduler ({reason})") from None
             try:
                 with parallel_config(backend="dask"):
                     for rec in Parallel(return_as="generator_unordered")(calls):
@@ -91,7 +91,7 @@ def check_scheduler(address: str) -> str:
     """A scheduler address that dask.distributed can dial, or a one-line error saying what is."""
     m = SCHEDULER_ADDRESS.match(address.strip()) if isinstance(address, str) else None
     if m is None or not 0 < int(m.group(3)) < 65536:
-        raise InputError(f"--scheduler {address!r}: give the scheduler's address as [PROTOCOL://]HOST:PORT, "
+        raise InputError(f"{option('scheduler', '--scheduler')} = {address!r}: give the scheduler's address as [PROTOCOL://]HOST:PORT, "
                          f"e.g. tcp://127.0.0.1:8786 (protocols tcp, tls, ws, wss, ucx, inproc)")
     return address.strip()
 
@@ -132,12 +132,12 @@ def scan(plan, out="scan-out", jobs: int = 1, scheduler: str | None = None, prog
     else:
         plan = load_plan(checked_path(plan, "scan plan"), allow_large)
     if isinstance(jobs, bool) or not isinstance(jobs, int) or jobs == 0 or jobs < -1:
-        raise InputError(f"--jobs {jobs!r}: give a positive number of processes (or -1 for all cores)")
+        raise InputError(f"{option('jobs', '--jobs')} = {jobs!r}: give a positive number of processes (or -1 for all cores)")
     if scheduler is not None:
         scheduler = check_scheduler(scheduler)
     out = checked_path(out, "out")
     if out.exists() and not out.is_dir():
-        raise InputError(f"--out {str(out)!r} is a file, not a directory")
+        raise InputError(f"{option('out', '--out')} = {str(out)!r} is a file, not a directory")
     ours = claim_folder(out) if out.is_dir() else set()
     with directory_for(out, "--out", parents=True):  # a folder made for nothing is taken back
         write_manifest(out, OUTPUT_KIND, ours | {"results.jsonl"})  # before the first record lands
