@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from ..version import __version__
-from ..vocabulary import LETTERS as _LETTERS, orbital_l
+from ..vocabulary import orbital_l, parse_label as _parse_label
 from ..config import KEYS as _KEYS, from_dict, resolve
 from ..validate import suggest as _suggest
 from ..errors import ConfigError, InputError
@@ -25,24 +25,11 @@ from .store import RECORD_FORMAT
 
 
 REFERENCES = ("auto", "exact", "largest")
-_LABEL = re.compile(r"^(\d+)([spdfghiklmnoqrtuvwxyz])(\d+)/2$")
 
 
 def parse_label(label: str) -> tuple[int, int]:
-    """'2p3/2' -> (n, kappa) = (2, -2)."""
-    m = _LABEL.match(str(label).strip())
-    if not m:
-        raise ConfigError(f"track.states: {label!r} is not a state label such as '1s1/2' or '2p3/2'")
-    n, l, j2 = int(m.group(1)), _LETTERS.index(m.group(2)), int(m.group(3))
-    if j2 == 2 * l + 1:
-        kappa = -(l + 1)
-    elif j2 == 2 * l - 1 and l > 0:
-        kappa = l
-    else:
-        raise ConfigError(f"track.states: {label!r} has j = {j2}/2, impossible for l = {l}")
-    if n < l + 1:
-        raise ConfigError(f"track.states: {label!r} needs n >= l + 1 = {l + 1}")
-    return n, kappa
+    """'2p3/2' -> (n, kappa) = (2, -2); errors name track.states (relbasis.vocabulary)."""
+    return _parse_label(label, "track.states")
 
 
 @dataclass(frozen=True)
