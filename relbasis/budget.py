@@ -28,7 +28,6 @@ the process would be killed by the system without a message.
 
 from __future__ import annotations
 
-import math
 import os
 import sys
 from dataclasses import dataclass

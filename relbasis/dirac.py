@@ -219,7 +219,11 @@ class DiracBasis:
 
     def local_matrix(self, term, local: "LocalChannels") -> np.ndarray:
         """int V (fP gP + fQ gQ) dr of a local term, on the quadrature (interval by interval)."""
-        V = np.asarray(term.potential(local.r), dtype=float).reshape(local.P.shape[:2])[..., None]
+        return self._potential(term.potential(local.r), local)
+
+    def _potential(self, values, local: "LocalChannels") -> np.ndarray:
+        """int V (fP gP + fQ gQ) dr for V given at the quadrature points (any shape of that size)."""
+        V = np.asarray(values, dtype=float).reshape(local.P.shape[:2])[..., None]
         w = local.w.reshape(local.P.shape[:2])[..., None]
         V_loc = _bt(V * w * local.P, local.P) + _bt(V * w * local.Q, local.Q)
         return _scatter(V_loc, local.index, self.size)
@@ -229,10 +233,7 @@ class DiracBasis:
         shape (n_int, nq): T + V (:mod:`relbasis.hamiltonian` assembles the general sum)."""
         local = local or self.sample(table)
         T, S = self.kinetic_and_overlap(local)
-        V = np.asarray(potential, dtype=float)
-        w = local.w.reshape(local.P.shape[:2])[..., None]
-        V_loc = _bt(V[..., None] * w * local.P, local.P) + _bt(V[..., None] * w * local.Q, local.Q)
-        return T + _scatter(V_loc, local.index, self.size), S
+        return T + self._potential(potential, local), S
 
 
 @dataclass(frozen=True)

@@ -86,26 +86,10 @@ def atomic_write(path, write: Callable[[str], None], what: str = "write") -> Pat
 
     The temporary file lives beside the target with a unique name (two runs writing into one
     directory never collide); on any failure, including KeyboardInterrupt, it is removed and
-    the target is left as it was.
+    the target is left as it was (:func:`atomic_group` of one file).
     """
-    path = Path(path)
-    directory = path.parent
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=directory)
-    except OSError as err:
-        raise os_failure(err, what, path) from None
-    os.close(fd)
-    try:
-        write(tmp)
-        os.chmod(tmp, 0o666 & ~umask())
-        os.replace(tmp, path)
-    except OSError as err:
-        _remove(tmp)
-        raise os_failure(err, what, path) from None
-    except BaseException:
-        _remove(tmp)
-        raise
-    return path
+    atomic_group([(Path(path), write)], what)
+    return Path(path)
 
 
 def atomic_text(path, text: str, what: str = "write") -> Path:

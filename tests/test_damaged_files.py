@@ -231,8 +231,7 @@ def _npz_pickled_member(good, dst):
 def _npz_is_a_pickle(good, dst):
     out = dst / "bad.npz"
     out.write_bytes(pickle.dumps({"kappa_-1.energies": _Marker(str(dst / "unpickled"))}))
-    shutil.copyfile(Path(good["npz"]).with_suffix(".json"), out.with_suffix(".json"))
-    return out
+    return _beside_good_sidecar(good, out)
 
 
 def _npz_member_raw_bytes(good, dst):
@@ -242,12 +241,17 @@ def _npz_member_raw_bytes(good, dst):
     return out
 
 
+def _beside_good_sidecar(good, out: Path) -> Path:
+    """``out`` with the valid export's .json sidecar beside it."""
+    shutil.copyfile(Path(good["npz"]).with_suffix(".json"), out.with_suffix(".json"))
+    return out
+
+
 def _npz_single_array(good, dst):
     out = dst / "bad.npz"
     with open(out, "wb") as fh:
         np.save(fh, np.arange(10.0))
-    shutil.copyfile(Path(good["npz"]).with_suffix(".json"), out.with_suffix(".json"))
-    return out
+    return _beside_good_sidecar(good, out)
 
 
 def _npz_missing_sidecar(good, dst):
@@ -265,8 +269,7 @@ def _npz_sidecar_directory(good, dst):
 def _npz_sidecar_of_another_export(good, dst):
     out = dst / "bad.npz"
     shutil.copyfile(good["other"], out)
-    shutil.copyfile(Path(good["npz"]).with_suffix(".json"), out.with_suffix(".json"))
-    return out
+    return _beside_good_sidecar(good, out)
 
 
 def _npz_sidecar_not_utf8(good, dst):
@@ -288,8 +291,7 @@ def _missing(good, dst):
 def _h5_renamed_npz(good, dst):
     out = dst / "bad.npz"
     shutil.copyfile(good["h5"], out)
-    shutil.copyfile(Path(good["npz"]).with_suffix(".json"), out.with_suffix(".json"))
-    return out
+    return _beside_good_sidecar(good, out)
 
 
 def _npz_renamed_h5(good, dst):

@@ -7,6 +7,7 @@ injected otherwise; /proc is a special filesystem every Linux machine has.
 
 from __future__ import annotations
 
+import contextlib
 import errno
 import os
 import subprocess
@@ -213,13 +214,21 @@ def _umount(where: Path) -> None:
     subprocess.run(["umount", "-l", str(where)], capture_output=True, check=False)
 
 
+@contextlib.contextmanager
+def _tmpfs(where: Path):
+    """A small tmpfs mounted at ``where`` for the test, or a skip where none can be mounted."""
+    if not _mount_tmpfs(where):
+        pytest.skip("cannot mount a tmpfs here (needs root on Linux); the injected cases cover this")
+    try:
+        yield where
+    finally:
+        _umount(where)
+
+
 @pytest.fixture
 def full_fs(tmp_path):
     """A real filesystem with no space left (a tmpfs filled by a file of the user's)."""
-    mnt = tmp_path / "full"
-    if not _mount_tmpfs(mnt):
-        pytest.skip("cannot mount a tmpfs here (needs root on Linux); the injected cases cover this")
-    try:
+    with _tmpfs(tmp_path / "full") as mnt:
         fd = os.open(mnt / "filler.bin", os.O_WRONLY | os.O_CREAT)
         try:
             while os.write(fd, b"\0" * 4096):
@@ -229,24 +238,17 @@ def full_fs(tmp_path):
         finally:
             os.close(fd)
         yield mnt
-    finally:
-        _umount(mnt)
 
 
 @pytest.fixture
 def readonly_fs(tmp_path):
     """A real read-only filesystem holding one file of the user's."""
-    mnt = tmp_path / "ro"
-    if not _mount_tmpfs(mnt):
-        pytest.skip("cannot mount a tmpfs here (needs root on Linux); the injected cases cover this")
-    try:
+    with _tmpfs(tmp_path / "ro") as mnt:
         (mnt / "data.txt").write_text("kept")
         done = subprocess.run(["mount", "-o", "remount,ro", str(mnt)], capture_output=True, check=False)
         if done.returncode != 0:
             pytest.skip("cannot remount read-only here")
         yield mnt
-    finally:
-        _umount(mnt)
 
 
 COMMANDS = {
