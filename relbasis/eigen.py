@@ -82,7 +82,7 @@ def solve(H: np.ndarray, S: np.ndarray, threshold: float | None = None) -> Eigen
     if threshold is None:
         try:
             energies, vectors = sl.eigh(Hs, Ss, driver="gvd", check_finite=False)
-            energies, vectors, error = _rayleigh(Hs, Ss, vectors)
+            energies, vectors, error = _rayleigh(Hs, Ss, vectors, normalised=True)
             return Eigensystem(energies, vectors * d[:, None], np.zeros(energies.size, dtype=bool), error=error)
         except sl.LinAlgError:
             threshold = DEFAULT_THRESHOLD
@@ -98,7 +98,15 @@ def solve(H: np.ndarray, S: np.ndarray, threshold: float | None = None) -> Eigen
                        int(np.count_nonzero(~keep)), condition, T, error)
 
 
-def _rayleigh(Hm: np.ndarray, Sm: np.ndarray | None, V: np.ndarray):
+NORM_TOLERANCE = 1e-6
+"""eigh's vectors must be S-normalised to this.  With a numerically singular S (smallest
+eigenvalue of the scaled S at the rounding level, e.g. -3e-16 in a bag of radius 0.01 bohr) the
+Cholesky factorisation inside eigh may still succeed, depending on the LAPACK build, and return
+vectors with v^T S v far from 1, even negative; the problem is then solved by canonical
+orthogonalisation instead."""
+
+
+def _rayleigh(Hm: np.ndarray, Sm: np.ndarray | None, V: np.ndarray, normalised: bool = False):
     """Rayleigh quotients of eigh's vectors and an error estimate per root (step 2).
 
     eigh's roots are accurate to machine epsilon times the largest |root| only, its vectors
@@ -108,11 +116,14 @@ def _rayleigh(Hm: np.ndarray, Sm: np.ndarray | None, V: np.ndarray):
     its residual r = H v - eps S v (else |r|, the residual bound), plus the rounding of the
     quotient itself, machine epsilon times |v|^T |H| |v| (T. Kato, J. Phys. Soc. Japan 4, 334
     (1949); B. N. Parlett, op. cit., ch. 10, from memory).  The Euclidean norm of r in the
-    scaled basis stands in for its S^-1 norm.
+    scaled basis stands in for its S^-1 norm.  With ``normalised`` the vectors must come
+    S-normalised (from eigh): a LinAlgError if not (:data:`NORM_TOLERANCE`).
     """
     HV = Hm @ V
     SV = V if Sm is None else Sm @ V
     norm = np.einsum("ij,ij->j", V, SV)
+    if normalised and not np.all(np.abs(norm - 1.0) < NORM_TOLERANCE):
+        raise sl.LinAlgError("eigh's vectors are not S-normalised: the overlap is numerically singular")
     energies = np.einsum("ij,ij->j", V, HV) / norm
     resid = np.sqrt(np.einsum("ij,ij->j", *(2 * [HV - SV * energies[None, :]])) / norm)
     rounding = _rounding(Hm, V) / norm
