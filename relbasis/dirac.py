@@ -45,7 +45,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import functools
+
 import numpy as np
+from scipy import sparse
 
 from .bspline import BSplineBasis, QuadratureTable, exponential_knots, knots_from_breakpoints, log_linear_knots
 from .errors import InputError
@@ -200,7 +203,7 @@ class DiracBasis:
         """The functions on the quadrature table (the family's sampled form, for the Hamiltonian
         terms and for evaluating roots)."""
         P, Q, DP, DQ, idx = self._local(table)
-        return LocalChannels(P, Q, DP, DQ, idx, table.r.ravel(), table.w.ravel(), self.size)
+        return LocalChannels(P, Q, DP, DQ, idx, table.r.ravel(), table.w.ravel(), self.size, self.kappa)
 
     def kinetic_and_overlap(self, local: "LocalChannels"):
         """T (kinetic and rest mass, with the wall term) and S, dense (size x size).
@@ -248,6 +251,29 @@ class LocalChannels:
     r: np.ndarray | None = None  # the quadrature points, flat (n_int * nq)
     w: np.ndarray | None = None  # and their weights
     size: int | None = None  # rows of H
+    kappa: int | None = None  # the symmetry of the functions
+
+    @property
+    def panel_points(self) -> int:
+        """Quadrature points per knot interval (the points are panels of this many)."""
+        return int(self.P.shape[1])
+
+    @functools.cached_property
+    def _gather(self):
+        """Sparse (size x slots of all intervals) matrix summing interval slots into rows of H."""
+        n_int, _, slots = self.P.shape
+        flat = self.index.ravel()
+        keep = np.flatnonzero(flat >= 0)
+        return sparse.csr_matrix((np.ones(keep.size), (flat[keep], keep)), shape=(self.size, n_int * slots))
+
+    def project(self, fP: np.ndarray, fQ: np.ndarray) -> np.ndarray:
+        """int (P_i fP + Q_i fQ) dr for every basis function i and every column of fP, fQ
+        (functions given at the quadrature points, (points, m)): (size, m), interval by interval."""
+        n_int, nq, slots = self.P.shape
+        w = self.w.reshape(n_int, nq, 1)
+        m = fP.shape[1]
+        blocks = _bt(w * self.P, fP.reshape(n_int, nq, m)) + _bt(w * self.Q, fQ.reshape(n_int, nq, m))
+        return np.asarray(self._gather @ blocks.reshape(n_int * slots, m))
 
     def dense(self, channel: str, size: int | None = None) -> np.ndarray:
         """One component ("P", "Q", "DP", "DQ"; or the letters "D", "M" for the last two) as a

@@ -125,7 +125,8 @@ class GaussianDiracBasis:
         """The functions on the quadrature grid (r, w): the family's sampled form."""
         r, w = grid
         P, Q, DP, DQ = self.components(r)
-        return DenseChannels(np.asarray(r, dtype=float), np.asarray(w, dtype=float), P, Q, DP, DQ)
+        return DenseChannels(np.asarray(r, dtype=float), np.asarray(w, dtype=float), P, Q, DP, DQ, self.kappa,
+                             PANEL_POINTS)
 
     def kinetic_and_overlap(self, sampled=None):
         """T (kinetic and rest mass) and S in closed form (the sampled functions are not needed)."""

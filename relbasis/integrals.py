@@ -33,6 +33,7 @@ from __future__ import annotations
 import numpy as np
 
 from .vocabulary import orbital_l
+from . import coulomb
 from .angular import reduced_c
 from .errors import InputError
 from .solver import Solution
@@ -420,45 +421,12 @@ def origin_series(sol: Solution, kappa: int, root: int, rc: float, terms: int = 
     return gamma, coef["P"][0], coef["Q"][0]
 
 
-def _cumulative(r: np.ndarray, w: np.ndarray, f: np.ndarray, nq: int) -> np.ndarray:
-    """int_0^{r_i} f(s) ds at every grid point, the grid being nq Gauss–Legendre points per panel.
-
-    Within a panel the integrand is integrated through its interpolating polynomial on the
-    panel's nodes (an nq x nq spectral integration matrix); the panels are summed before it.
-    """
-    x, _ = np.polynomial.legendre.leggauss(nq)
-    V = np.polynomial.legendre.legvander(x, nq - 1)  # values of P_0..P_{nq-1} at the nodes
-    # antiderivatives of the Legendre polynomials from -1: (P_{n+1} - P_{n-1}) / (2n + 1)
-    anti = np.zeros((nq, nq))
-    for n in range(nq):
-        c = np.zeros(nq + 1)
-        if n == 0:
-            c[1], c[0] = 1.0, 1.0  # int_{-1}^x P_0 = x + 1
-        else:
-            c[n + 1] = 1.0 / (2 * n + 1)
-            c[n - 1] = -1.0 / (2 * n + 1)
-        anti[:, n] = np.polynomial.legendre.legval(x, c)
-    A = anti @ np.linalg.inv(V)  # node values -> partial integrals at the nodes, on [-1, 1]
-    panels = f.shape[0] // nq
-    F = f.reshape(panels, nq, -1)
-    half = (w.reshape(panels, nq).sum(axis=1) / 2.0)[:, None, None]  # half panel widths
-    partial = np.einsum("ij,pjk->pik", A, F) * half
-    whole = (w.reshape(panels, nq)[:, :, None] * F).sum(axis=1)
-    before = np.concatenate([np.zeros((1, F.shape[2])), np.cumsum(whole, axis=0)[:-1]], axis=0)
-    return (partial + before[:, None, :]).reshape(f.shape)
-
-
 def yk(sol: Solution, k: int, b: tuple[int, int], d: tuple[int, int]) -> np.ndarray:
     """Hartree's Y^k_bd(r) on the grid: int (r_<^k / r_>^(k+1)) r rho_bd(s) ds."""
     r, w = sol.grid
-    nq = sol.family_set.panel_points
     Pb, Qb = (x[:, 0] for x in _sample(sol, b[0], [b[1]]))
     Pd, Qd = (x[:, 0] for x in _sample(sol, d[0], [d[1]]))
-    rho = Pb * Pd + Qb * Qd
-    inner = _cumulative(r, w, (r**k * rho)[:, None], nq)[:, 0]
-    outer_all = np.sum(w * rho / r ** (k + 1))
-    outer = outer_all - _cumulative(r, w, (rho / r ** (k + 1))[:, None], nq)[:, 0]
-    return inner / r**k + outer * r ** (k + 1)
+    return coulomb.yk(r, w, Pb * Pd + Qb * Qd, k, sol.family_set.panel_points)
 
 
 def slater(sol: Solution, k: int, a, b, c, d) -> float:

@@ -38,10 +38,17 @@ class DenseChannels:
     Q: np.ndarray = field(repr=False)
     DP: np.ndarray = field(repr=False)
     DQ: np.ndarray = field(repr=False)
+    kappa: int | None = None  # the symmetry of the functions
+    panel_points: int | None = None  # quadrature points per panel of r (None: not a panel grid)
 
     @property
     def size(self) -> int:
         return self.P.shape[1]
+
+    def project(self, fP: np.ndarray, fQ: np.ndarray) -> np.ndarray:
+        """int (P_i fP + Q_i fQ) dr for every function i and every column of fP, fQ (given at
+        the points r, (points, m)): (size, m)."""
+        return (self.P * self.w[:, None]).T @ fP + (self.Q * self.w[:, None]).T @ fQ
 
     def dense(self, channel: str, size: int | None = None) -> np.ndarray:
         return getattr(self, channel_names(channel)[0])

@@ -19,7 +19,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "relbasis"
 LAYERS: tuple[tuple[str, ...], ...] = (
     # 0 leaves: no relbasis import except errors (and vocabulary -> errors, validate -> errors)
     ("version", "constants", "errors"),
-    ("vocabulary", "validate", "outputs", "layout", "sampling", "hamiltonian"),
+    ("vocabulary", "validate", "outputs", "layout", "sampling", "hamiltonian", "coulomb"),
     # 2 input: what a user writes and the records it names
     ("config", "elements", "finite", "analytic"),
     ("radii", "angular"),

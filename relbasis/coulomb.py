@@ -1,0 +1,112 @@
+"""Hartree's Y^k functions on a panel quadrature, vectorised over many pair densities.
+
+For a pair density rho(r) (e.g. P_a P_b + Q_a Q_b of two radial orbitals) the multipole
+potential of order k, times r, is
+
+    Y^k(r) = r int_0^inf rho(s) r_<^k / r_>^(k+1) ds
+           = r^(-k) int_0^r s^k rho(s) ds  +  r^(k+1) int_r^inf s^(-k-1) rho(s) ds
+
+(D. R. Hartree, *The Calculation of Atomic Structures*, Wiley 1957; W. R. Johnson, *Atomic
+Structure Theory*, Springer 2007, ch. 3), and the Slater integral is
+R^k(ac, bd) = int rho_ac(r) Y^k_bd(r) / r dr.
+
+Every basis family samples its functions on panels of ``nq`` Gauss–Legendre points (the knot
+intervals of the B-splines, the panels of the Gaussian grid).  The partial integrals
+int_0^{r_i} f at the points are computed panel by panel: whole panels by the Gauss rule, the
+part of the current panel through the polynomial interpolating f at the panel's nq points (a
+spectral integration matrix; common practice of spectral collocation, e.g. L. N. Trefethen,
+*Spectral Methods in MATLAB*, SIAM 2000, from memory).  Everything is a matrix product over the
+columns of f, so one call handles all the pair densities of one orbital with a whole basis.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+import numpy as np
+
+
+@lru_cache(maxsize=None)
+def integration_matrix(nq: int) -> np.ndarray:
+    """A (nq x nq): (A f)_i = int_{-1}^{x_i} p(x) dx for the polynomial p through (x_j, f_j),
+    x the Gauss–Legendre nodes on [-1, 1].
+
+    With V the Legendre–Vandermonde matrix and int_{-1}^x P_n = (P_{n+1} - P_{n-1}) / (2n + 1)
+    (x + 1 for n = 0), A = W V^-1 where W holds those antiderivatives at the nodes.
+    """
+    x, _ = np.polynomial.legendre.leggauss(nq)
+    V = np.polynomial.legendre.legvander(x, nq - 1)
+    W = np.zeros((nq, nq))
+    for n in range(nq):
+        coef = np.zeros(nq + 1)
+        if n == 0:
+            coef[:2] = 1.0
+        else:
+            coef[n + 1], coef[n - 1] = 1.0 / (2 * n + 1), -1.0 / (2 * n + 1)
+        W[:, n] = np.polynomial.legendre.legval(x, coef)
+    A = np.linalg.solve(V.T, W.T).T  # W V^-1
+    A.setflags(write=False)
+    return A
+
+
+def cumulative(w: np.ndarray, f: np.ndarray, nq: int) -> np.ndarray:
+    """int_0^{r_i} f(s) ds at every point of the panel grid, for every column of f.
+
+    ``w`` are the quadrature weights (panels of nq points, ascending); ``f`` is (points,) or
+    (points, m).  Returns an array of f's shape.
+    """
+    f = np.asarray(f, dtype=float)
+    flat = f.reshape(f.shape[0], -1)
+    panels = flat.shape[0] // nq
+    F = flat.reshape(panels, nq, -1)
+    wp = w.reshape(panels, nq)
+    half = wp.sum(axis=1)[:, None, None] / 2.0  # half panel widths (the Gauss weights sum to 2)
+    # one matrix product for all panels and columns (BLAS), not a batch of small ones
+    partial = np.tensordot(integration_matrix(nq), F, axes=([1], [1])).transpose(1, 0, 2) * half
+    whole = np.einsum("pq,pqm->pm", wp, F)
+    before = np.cumsum(whole, axis=0) - whole  # the panels before each one
+    return (partial + before[:, None, :]).reshape(f.shape)
+
+
+def yk(r: np.ndarray, w: np.ndarray, rho: np.ndarray, k: int, nq: int) -> np.ndarray:
+    """Y^k(r) of every column of ``rho`` at the grid points (module docstring).
+
+    ``rho`` is (points,) or (points, m), given on the panel grid r with weights w.  The outer
+    integral is the total minus the partial one; both are taken of smooth integrands
+    (s^k rho and s^(-k-1) rho), so the spectral integration keeps its accuracy.
+    """
+    rho = np.asarray(rho, dtype=float)
+    col = rho.reshape(rho.shape[0], -1)
+    rk = r**k
+    inner = cumulative(w, col * rk[:, None], nq)
+    g = col / (rk * r)[:, None]
+    outer = (w @ g)[None, :] - cumulative(w, g, nq)
+    out = inner / rk[:, None] + outer * (rk * r)[:, None]
+    return out.reshape(rho.shape)
+
+
+def interpolate(r_grid: np.ndarray, values: np.ndarray, nq: int, r: np.ndarray, beyond: float) -> np.ndarray:
+    """A function known at the points of a panel grid, at other radii r, panel by panel.
+
+    Inside a panel: the polynomial through its nq Gauss–Legendre points, in barycentric form
+    (J.-P. Berrut, L. N. Trefethen, SIAM Rev. 46, 501 (2004)); the panel ends follow from the
+    nodes (an affine map of [-1, 1]).  Beyond the last panel the constant ``beyond``.
+    """
+    r = np.asarray(r, dtype=float)
+    pts = r_grid.reshape(-1, nq)
+    vals = np.asarray(values, dtype=float).reshape(-1, nq)
+    x, wq = np.polynomial.legendre.leggauss(nq)
+    bary = (-1.0) ** np.arange(nq) * np.sqrt((1 - x * x) * wq)  # barycentric weights of Gauss nodes
+    scale = (pts[:, -1] - pts[:, 0]) / (x[-1] - x[0])  # half widths
+    ends = pts[:, 0] + (1.0 - x[0]) * scale
+    panel = np.minimum(np.searchsorted(ends, r), pts.shape[0] - 1)
+    t = x[0] + (r - pts[panel, 0]) / scale[panel]
+    diff = t[:, None] - x[None, :]
+    exact = diff == 0.0
+    diff[exact] = 1.0
+    terms = bary[None, :] / diff
+    out = (terms * vals[panel]).sum(axis=1) / terms.sum(axis=1)
+    hit = exact.any(axis=1)
+    out[hit] = vals[panel[hit]][exact[hit]]
+    out[r > ends[-1]] = beyond
+    return out
