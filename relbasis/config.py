@@ -21,6 +21,10 @@ quadrature = 14        # Gauss–Legendre points per knot interval
 
 [solve]
 kappas = [-1, 1, -2, 2, -3, 3, -4, 4]
+
+[electrons]            # optional: a mean-field model (relbasis.electrons); absent: the bare nucleus
+core = "[Rn]"          # closed subshells (86 electrons)
+valence = "7s1/2"      # optional: one electron outside the core (U5+ with Z = 92)
 ```
 
 Every key is checked: an unknown key names the likely intended one, a wrong type or a value out
@@ -44,6 +48,7 @@ from typing import TYPE_CHECKING
 
 from . import validate
 from .constants import C, FM_BOHR
+from .electrons import KEYS as ELECTRON_KEYS, Electrons, parse_electrons
 from .errors import ConfigError, InputError
 from .outputs import checked_path, read_input
 from .validate import suggest
@@ -138,21 +143,25 @@ class Config:
     ion: IonSpec
     basis: BasisSpec = field(default_factory=BasisSpec)
     solve: SolveSpec = field(default_factory=SolveSpec)
+    electrons: Electrons | None = None
+    """The electrons of a mean-field model ([electrons]); None: the bare nucleus, one electron."""
 
     def to_dict(self) -> dict:
-        """Plain mapping (TOML/JSON-ready; None entries dropped)."""
+        """Plain mapping (TOML/JSON-ready; None entries dropped; [electrons] only when set)."""
         out = {}
         for name in ("ion", "basis", "solve"):
             sec = {k: (list(v) if isinstance(v, tuple) else v) for k, v in asdict(getattr(self, name)).items()}
             out[name] = {k: v for k, v in sec.items() if v is not None}
+        if self.electrons is not None:
+            out["electrons"] = self.electrons.to_dict()
         return out
 
 
 # ----------------------------------------------------------------------------- validation
 
-_SECTIONS = {"ion": IonSpec, "basis": BasisSpec, "solve": SolveSpec}
-KEYS = {name: tuple(f for f in cls.__dataclass_fields__) for name, cls in _SECTIONS.items()}
-"""Valid keys of each section, e.g. ``KEYS["basis"]``."""
+_SECTIONS = {"ion": IonSpec, "basis": BasisSpec, "solve": SolveSpec, "electrons": Electrons}
+KEYS = {name: ELECTRON_KEYS if cls is Electrons else tuple(cls.__dataclass_fields__) for name, cls in _SECTIONS.items()}
+"""Valid keys of each section, e.g. ``KEYS["basis"]`` ([electrons]: its TOML keys, relbasis.electrons.KEYS)."""
 _KEYS = KEYS  # the former private name
 _suggest = suggest  # the former private name (now relbasis.validate.suggest)
 
@@ -342,8 +351,8 @@ def from_dict(data: dict) -> Config:
     Parameters
     ----------
     data : dict
-        ``{"ion": {...}, "basis": {...}, "solve": {...}}`` with the keys of docs/config.md
-        (``Config.to_dict()`` gives one back).
+        ``{"ion": {...}, "basis": {...}, "solve": {...}, "electrons": {...}}`` with the keys of
+        docs/config.md (``Config.to_dict()`` gives one back; [electrons] is checked against ion.Z).
 
     Returns
     -------
@@ -359,7 +368,8 @@ def from_dict(data: dict) -> Config:
         raise ConfigError(f"config must be a mapping of sections, got {type(data).__name__}")
     for name, sec in data.items():
         if name not in _SECTIONS:
-            raise ConfigError(f"unknown section [{name}]{suggest(name, _SECTIONS)}; valid: [ion], [basis], [solve]")
+            raise ConfigError(f"unknown section [{name}]{suggest(name, _SECTIONS)}; valid: "
+                              + ", ".join(f"[{s}]" for s in _SECTIONS))
         if not isinstance(sec, dict):
             raise ConfigError(f"[{name}] must be a table of keys, got {sec!r}")
         for key in sec:
@@ -372,7 +382,8 @@ def from_dict(data: dict) -> Config:
     basis = _check_basis(data.get("basis", {}))
     solve = SolveSpec(_kappas(data["solve"]["kappas"])) if "kappas" in data.get("solve", {}) else SolveSpec()
     _check_size(basis, len(solve.kappas))
-    return Config(ion, basis, solve)
+    electrons = parse_electrons(data["electrons"], ion.Z) if "electrons" in data else None
+    return Config(ion, basis, solve, electrons)
 
 
 def load(path) -> Config:
@@ -381,7 +392,7 @@ def load(path) -> Config:
     Parameters
     ----------
     path : str or os.PathLike
-        The TOML file, with sections [ion], [basis] and [solve].
+        The TOML file, with sections [ion], [basis], [solve] and [electrons].
 
     Returns
     -------
@@ -550,7 +561,7 @@ def _resolve(config: Config, c: float = C) -> tuple[Config, Nucleus]:
     if KEY_STYLES[b.family] == "exponents":
         if Z == 0:
             raise InputError("ion.Z = 0 (a free particle) needs the B-spline family and basis.r_max (the cavity radius)")
-        return Config(ion, _resolve_gaussian(b, nuc, c), config.solve), nuc
+        return Config(ion, _resolve_gaussian(b, nuc, c), config.solve, config.electrons), nuc
     if isinstance(b.knots, tuple):
         # explicit breakpoints fix the basis: report it as it is (size, first knot, wall)
         quad = b.quadrature if b.quadrature is not None else b.order + 4
@@ -563,7 +574,7 @@ def _resolve(config: Config, c: float = C) -> tuple[Config, Nucleus]:
                 raise InputError(f"basis.{key} does not apply with explicit basis.knots (the breakpoints fix the grid); drop it")
         wall = b.wall if b.wall is not None else "dirichlet"
         basis = replace(b, size=size, r_min=b.knots[1], r_max=b.knots[-1], quadrature=quad, wall=wall)
-        return Config(ion, basis, config.solve), nuc
+        return Config(ion, basis, config.solve, config.electrons), nuc
     if Z == 0 and b.r_max is None and not isinstance(b.knots, tuple):
         raise InputError("ion.Z = 0 (a free particle) needs basis.r_max, the cavity radius in bohr")
     r_max = b.r_max if b.r_max is not None else DEFAULT_CAVITY / Z
@@ -587,7 +598,7 @@ def _resolve(config: Config, c: float = C) -> tuple[Config, Nucleus]:
     knots = b.knots if b.knots is not None else "log-linear"
     wall = b.wall if b.wall is not None else "dirichlet"
     basis = replace(b, size=size, r_min=r_min, r_max=r_max, r_scale=r_scale, quadrature=quad, knots=knots, wall=wall)
-    return Config(ion, basis, config.solve), nuc
+    return Config(ion, basis, config.solve, config.electrons), nuc
 
 
 POINT_Z_SAFE = 118

@@ -104,6 +104,21 @@ def configs() -> dict[str, str]:
         "ion-not-table": "ion = 92\n",
         "basis-not-table": GOOD_ION + "basis = 'big'\n",
         "empty": "",
+        "electrons-open-shell": GOOD_ION + "[electrons]\ncore = '[He] 2s2 2p5'\n",
+        "electrons-open-subshell": GOOD_ION + "[electrons]\ncore = '[He] 2s2 2p3/2(3)'\n",
+        "electrons-repeat": GOOD_ION + "[electrons]\ncore = '[Ne] 2p3/2'\n",
+        "electrons-impossible": GOOD_ION + "[electrons]\ncore = '1s2 2d5/2'\n",
+        "electrons-bad-j": GOOD_ION + "[electrons]\ncore = '2p5/2'\n",
+        "electrons-shorthand": GOOD_ION + "[electrons]\ncore = '[Ca]'\n",
+        "electrons-beyond-Z": GOOD_ION + "[electrons]\ncore = '[Ar]'\n",
+        "electrons-valence-beyond-Z": GOOD_ION + "[electrons]\ncore = '[Ne]'\nvalence = '3s1/2'\n",
+        "electrons-valence-in-core": "[ion]\nZ = 11\n[electrons]\ncore = '[Ne]'\nvalence = '2p3/2'\n",
+        "electrons-valence-two": "[ion]\nZ = 12\n[electrons]\ncore = '[Ne]'\nvalence = '3s1/2 3p1/2'\n",
+        "electrons-valence-no-core": GOOD_ION + "[electrons]\nvalence = '1s1/2'\n",
+        "electrons-empty-core": GOOD_ION + "[electrons]\ncore = ''\n",
+        "electrons-core-list": GOOD_ION + "[electrons]\ncore = ['[He]']\n",
+        "electrons-unknown-key": GOOD_ION + "[electrons]\ncore = '[He]'\ncharge = 8\n",
+        "electrons-not-table": "electrons = '[He]'\n" + GOOD_ION,
     }
     return bad
 

@@ -21,8 +21,8 @@ LAYERS: tuple[tuple[str, ...], ...] = (
     ("version", "constants", "errors"),
     ("vocabulary", "validate", "outputs", "layout", "sampling", "hamiltonian", "coulomb"),
     # 2 input: what a user writes and the records it names
-    ("config", "elements", "finite", "analytic"),
-    ("radii", "angular"),
+    ("electrons", "elements", "finite", "analytic"),
+    ("config", "radii", "angular"),
     ("nucleus",),
     # 5 basis functions
     ("bspline", "gaussian"),
@@ -183,7 +183,7 @@ def test_function_level_upward_imports_are_the_listed_ones():
 
 def test_config_imports_no_computational_module():
     top, _ = _edges()
-    assert sorted(b for a, b in top if a == "config") == ["constants", "errors", "outputs", "validate", "vocabulary"]
+    assert sorted(b for a, b in top if a == "config") == ["constants", "electrons", "errors", "outputs", "validate", "vocabulary"]
 
 
 def test_leaves_import_only_leaves():

@@ -105,9 +105,9 @@ def plan_from_dict(data: dict, allow_large: bool = False) -> Plan:
     base = data.get("base", {})
     if not isinstance(base, dict):
         raise ConfigError("[base] must hold [base.ion], [base.basis] and/or [base.solve]")
-    for sec in base:
-        if sec not in _KEYS:
-            raise ConfigError(f"unknown section [base.{sec}]{_suggest(sec, _KEYS)}; valid: ion, basis, solve")
+    for sec in base:  # not [base.electrons]: a scan solves the bare nucleus (the mean field is not scanned)
+        if sec not in ("ion", "basis", "solve"):
+            raise ConfigError(f"unknown section [base.{sec}]{_suggest(sec, ('ion', 'basis', 'solve'))}; valid: ion, basis, solve")
     axes_raw = data.get("axes")
     if not isinstance(axes_raw, dict) or not axes_raw:
         raise ConfigError("[axes] is missing or empty: give at least one axis, e.g. \"basis.size\" = [40, 60, 80]")
