@@ -44,6 +44,7 @@ these choices every integrand on the first knot interval is regular, even for V 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import functools
 
@@ -218,7 +219,7 @@ class DiracBasis:
         cross = _bt(wQ, DP)
         T_loc = -2 * self.c**2 * _bt(wQ, Q) + self.c * (cross + cross.transpose(0, 2, 1))
         n = self.size
-        return _scatter(T_loc, idx, n) + self.wall_matrix(), _scatter(S_loc, idx, n)
+        return _scatter(T_loc, idx, n, local.slots_for(n)) + self.wall_matrix(), _scatter(S_loc, idx, n, local.slots_for(n))
 
     def local_matrix(self, term, local: "LocalChannels") -> np.ndarray:
         """int V (fP gP + fQ gQ) dr of a local term, on the quadrature (interval by interval)."""
@@ -229,7 +230,7 @@ class DiracBasis:
         V = np.asarray(values, dtype=float).reshape(local.P.shape[:2])[..., None]
         w = local.w.reshape(local.P.shape[:2])[..., None]
         V_loc = _bt(V * w * local.P, local.P) + _bt(V * w * local.Q, local.Q)
-        return _scatter(V_loc, local.index, self.size)
+        return _scatter(V_loc, local.index, self.size, local.slots_for(self.size))
 
     def matrices(self, table: QuadratureTable, potential: np.ndarray, local: LocalChannels | None = None):
         """H and S (dense, size x size) with a local potential V given at the table's points,
@@ -275,6 +276,16 @@ class LocalChannels:
         blocks = _bt(w * self.P, fP.reshape(n_int, nq, m)) + _bt(w * self.Q, fQ.reshape(n_int, nq, m))
         return np.asarray(self._gather @ blocks.reshape(n_int * slots, m))
 
+    @cached_property
+    def slots(self) -> tuple[np.ndarray, np.ndarray]:
+        """Where the local blocks go in the (size, size) matrices (:func:`_slots`), shared by
+        T, S and every potential term of this basis."""
+        return _slots(self.index, self.size)
+
+    def slots_for(self, n: int):
+        """:attr:`slots` for matrices of n rows (None if this sampling was made for another size)."""
+        return self.slots if self.size == n else None
+
     def dense(self, channel: str, size: int | None = None) -> np.ndarray:
         """One component ("P", "Q", "DP", "DQ"; or the letters "D", "M" for the last two) as a
         dense (n_int * nq, size) matrix of the basis functions."""
@@ -302,12 +313,20 @@ def _bt(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.matmul(a.transpose(0, 2, 1), b)
 
 
-def _scatter(local: np.ndarray, idx: np.ndarray, n: int) -> np.ndarray:
-    """Sum local blocks local[m, a, b] into the global (n, n) matrix at rows idx[m, a], cols idx[m, b]."""
+def _slots(idx: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """(mask, flat) of :func:`_scatter`: the local slot pairs that are kept, and their index in
+    the flattened (n, n) matrix."""
     ia = idx[:, :, None]
     ib = idx[:, None, :]
     mask = (ia >= 0) & (ib >= 0)
-    flat = (ia * n + ib)[mask]
+    return mask, (ia * n + ib)[mask]
+
+
+def _scatter(local: np.ndarray, idx: np.ndarray, n: int, slots=None) -> np.ndarray:
+    """Sum local blocks local[m, a, b] into the global (n, n) matrix at rows idx[m, a], cols idx[m, b].
+
+    ``slots``: :func:`_slots` of (idx, n), computed once for the several matrices of one basis."""
+    mask, flat = _slots(idx, n) if slots is None else slots
     out = np.bincount(flat, weights=local[mask], minlength=n * n)
     return out.reshape(n, n)
 

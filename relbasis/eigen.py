@@ -139,8 +139,11 @@ def _rayleigh(Hm: np.ndarray, Sm: np.ndarray | None, V: np.ndarray, normalised: 
 def _kato_temple(r: np.ndarray, norm: float, energies: np.ndarray, j: int) -> float:
     """min(|r|, |r|^2/gap) for the residual r of root j (see :func:`_rayleigh`)."""
     resid = float(np.sqrt(r @ r / norm))
-    others = np.delete(energies, j)
-    gap = float(np.min(np.abs(others - energies[j]))) if others.size else np.inf
+    if energies.size < 2:
+        return resid
+    dist = np.abs(energies - energies[j])
+    dist[j] = np.inf
+    gap = float(np.min(dist))
     return resid if gap <= resid else min(resid, resid * resid / gap)
 
 
@@ -235,24 +238,31 @@ def shift_invert(system: Eigensystem, H: np.ndarray, S: np.ndarray, floor: float
 
 
 def _bandwidths(A: np.ndarray) -> tuple[int, int]:
-    i, j = np.nonzero(A)
-    return int(max(0, (i - j).max(initial=0))), int(max(0, (j - i).max(initial=0)))
+    """(lower, upper) bandwidth of the non-zero pattern A (a boolean matrix)."""
+    rows = np.flatnonzero(A.any(axis=1))
+    if rows.size == 0:
+        return 0, 0
+    first = A.argmax(axis=1)  # first non-zero column of each row
+    last = A.shape[1] - 1 - A[:, ::-1].argmax(axis=1)
+    return int(max(0, (rows - first[rows]).max())), int(max(0, (last[rows] - rows).max()))
 
 
 def refine(system: Eigensystem, H: np.ndarray, S: np.ndarray, which, order: np.ndarray | None = None,
-           steps: int = _REFINE_STEPS) -> Eigensystem:
+           steps: int = _REFINE_STEPS, reorthogonalise: bool = True) -> Eigensystem:
     """Improve the roots ``which`` (indices or mask) by shifted inverse iteration (step 3).
 
     ``order`` is a permutation of the basis that makes H and S banded (B-spline functions sorted
     by their spline index); the shifted matrix is then factorised in band storage (LAPACK
-    gbtrf/gbtrs), which costs O(n b^2) instead of O(n^3) per root.
+    gbtrf/gbtrs), which costs O(n b^2) instead of O(n^3) per root.  ``reorthogonalise`` False
+    leaves the other vectors as they came (:func:`_reorthogonalise`; the energies are the same
+    either way): for a solve whose levels alone are kept.
     """
     which = np.asarray(which)
     idx = np.flatnonzero(which) if which.dtype == bool else which.astype(int)
     if idx.size == 0:
         return system
     if system.transform is not None:
-        return _refine_reduced(system, H, S, idx, steps)
+        return _refine_reduced(system, H, S, idx, steps, reorthogonalise)
     n = H.shape[0]
     perm = np.arange(n) if order is None else np.asarray(order)
     d = 1.0 / np.sqrt(np.diag(S))[perm]
@@ -263,21 +273,21 @@ def refine(system: Eigensystem, H: np.ndarray, S: np.ndarray, which, order: np.n
     if banded:
         # LAPACK band storage: ab[kl + ku + i - j, j] = A[i, j], kl extra rows for the fill-in
         hb, sb = np.zeros((2, 2 * kl + ku + 1, n))
-        for off in range(-kl, ku + 1):  # off = j - i
-            row = kl + ku - off
-            lo = max(off, 0)
-            hb[row, lo:lo + n - abs(off)] = np.diagonal(Hs, off)
-            sb[row, lo:lo + n - abs(off)] = np.diagonal(Ss, off)
+        cols = np.broadcast_to(np.arange(n), (kl + ku + 1, n))
+        rows = np.arange(-ku, kl + 1)[:, None] + cols  # i = j + (band row - kl - ku)
+        inside = (rows >= 0) & (rows < n)
+        hb[kl:][inside] = Hs[rows[inside], cols[inside]]
+        sb[kl:][inside] = Ss[rows[inside], cols[inside]]
     energies = system.energies.copy()
     vectors = system.vectors.copy()
     refined = system.refined.copy()
     error = (system.error if system.error is not None else _full_solve_error(energies)).copy()
-    H2 = Hs * Hs
+    done, xs, norms = [], [], []
     for j in idx:
         sigma = energies[j]
         x = vectors[perm, j] / d
         if banded:
-            lu, piv, info = sl.lapack.dgbtrf(hb - sigma * sb, kl, ku)
+            lu, piv, info = sl.lapack.dgbtrf(hb - sigma * sb, kl, ku, overwrite_ab=1)  # a fresh array
             solve_one = lambda b, lu=lu, piv=piv: sl.lapack.dgbtrs(lu, kl, ku, b, piv)[0]  # noqa: E731
         else:
             lu, piv, info = sl.lapack.dgetrf(Hs - sigma * Ss)
@@ -287,23 +297,30 @@ def refine(system: Eigensystem, H: np.ndarray, S: np.ndarray, which, order: np.n
         ok = True
         for _ in range(steps):
             y = solve_one(Ss @ x)
-            if not np.all(np.isfinite(y)) or not np.any(y):
+            if not np.isfinite(y).all() or not y.any():
                 ok = False
                 break
-            y = y / np.max(np.abs(y))  # keep y @ S @ y clear of overflow
+            y = y / np.abs(y).max()  # keep y @ S @ y clear of overflow
             x = y / np.sqrt(y @ Ss @ y)
         if not ok:
             continue
         Hx, Sx = Hs @ x, Ss @ x
         norm = x @ Sx
         energies[j] = (x @ Hx) / norm
-        x2 = x * x
-        error[j] = EPS * np.sqrt(x2 @ H2 @ x2) / norm + _kato_temple(Hx - energies[j] * Sx, norm, energies, j)
-        v = np.empty(n)
-        v[perm] = x * d
-        vectors[:, j] = v
+        # the residual bound against the energies as they stand (the roots refined so far)
+        error[j] = _kato_temple(Hx - energies[j] * Sx, norm, energies, j)
+        done.append(j)
+        xs.append(x)
+        norms.append(norm)
         refined[j] = True
-    _reorthogonalise(vectors, S, refined)
+    if done:
+        X = np.array(xs).T  # banded order, scaled basis
+        X2 = X * X
+        # rounding of each quotient (as _rounding), for all refined roots in one product
+        error[done] += EPS * np.sqrt(np.einsum("ij,ij->j", X2, (Hs * Hs) @ X2)) / np.array(norms)
+        vectors[np.ix_(perm, done)] = X * d[:, None]
+    if reorthogonalise:
+        _reorthogonalise(vectors, S, refined)
     sorter = np.argsort(energies, kind="stable")
     return Eigensystem(energies[sorter], vectors[:, sorter], refined[sorter], system.dropped, system.condition,
                        error=error[sorter])
@@ -329,7 +346,7 @@ def _reorthogonalise(vectors: np.ndarray, S: np.ndarray, refined: np.ndarray) ->
     vectors[:, O] = VO
 
 
-def _refine_reduced(system: Eigensystem, H, S, idx, steps) -> Eigensystem:
+def _refine_reduced(system: Eigensystem, H, S, idx, steps, reorthogonalise: bool = True) -> Eigensystem:
     """Inverse iteration in the span kept by canonical orthogonalisation (vectors = T y)."""
     T = system.transform
     Hr, Sr = T.T @ H @ T, T.T @ S @ T
@@ -353,7 +370,8 @@ def _refine_reduced(system: Eigensystem, H, S, idx, steps) -> Eigensystem:
             vectors[:, j] = T @ x
             error[j] = _rounding(Hr, x[:, None])[0] / norm + _kato_temple(Hx - energies[j] * Sx, norm, energies, j)
             refined[j] = True
-    _reorthogonalise(vectors, S, refined)
+    if reorthogonalise:
+        _reorthogonalise(vectors, S, refined)
     sorter = np.argsort(energies, kind="stable")
     return Eigensystem(energies[sorter], vectors[:, sorter], refined[sorter], system.dropped, system.condition, T,
                        error[sorter])

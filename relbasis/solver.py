@@ -13,7 +13,9 @@ estimate of every level (:mod:`relbasis.confidence`).
 
 from __future__ import annotations
 
+import os
 import sys
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import asdict, dataclass, field
 
 import numpy as np
@@ -35,7 +37,7 @@ from .confidence import reduced_config
 from .families import family_of
 from . import hamiltonian
 from .precision import EDGE_MARGIN, POLISH_SHARE, isolated, lost, near_edge, precision_flags, settle_edge, with_flags
-from .spectrum import Spectrum, classify, duplicate_roots, examined, gap
+from .spectrum import Spectrum, can_dive, classify, duplicate_roots, examined, gap
 
 
 @dataclass(frozen=True)
@@ -175,12 +177,19 @@ def as_config(config=None, **overrides) -> Config:
 
 
 def solve_symmetry(fset, kappa: int, terms, partner: Spectrum | None = None,
-                   reference: dict[int, float] | None = None):
+                   reference: dict[int, float] | None = None, levels_only: bool = False):
     """Basis, H from its terms, roots, refinement and sorting of one symmetry, in any family.
 
     ``fset`` is the family's per-solve set (:meth:`relbasis.families.BasisFamily.build_set`),
     ``terms`` the potential terms of the Hamiltonian (:mod:`relbasis.hamiltonian`).  Returns
     (basis, spectrum, eigensystem, sampled functions).
+
+    ``levels_only`` (the reduced basis of the error estimate, whose levels alone are kept):
+    the same energies, branches, n and flags, without the work only the vectors need: the
+    unrefined vectors are not re-orthogonalised against the refined ones, the roots outside
+    the examined window keep eigh's sign, and the dive window is not evaluated where no level
+    can dive (-r V(r) <= c everywhere, :func:`relbasis.spectrum.classify`).  Its vectors are
+    therefore not a clean S-orthonormal set.
     """
     basis = fset.build(kappa)
     sampled = fset.sample(basis)
@@ -189,25 +198,32 @@ def solve_symmetry(fset, kappa: int, terms, partner: Spectrum | None = None,
     check_matrices(kappa, H, S, cause)
     r, w = sampled.r, sampled.w
     system, moved = _roots(H, S, eigensolve(H, S, fset.threshold), fset.c,
-                           lambda v: sampled.evaluate(v, ("P", "Q")), w, fset.band_order(basis))
+                           lambda v: sampled.evaluate(v, ("P", "Q")), w, fset.band_order(basis),
+                           reorthogonalise=not levels_only)
     check_roots(kappa, system.energies, system.vectors, system.error, cause)
+    V = hamiltonian.local_potential(terms, r)
     window = examined(system.energies, fset.c)
-    P_all = fset.node_matrix(basis, sampled) @ system.vectors
+    if levels_only:
+        P_all = None
+        if not can_dive(r, V, fset.c):
+            window = gap(system.energies, fset.c)
+    else:
+        P_all = fset.node_matrix(basis, sampled) @ system.vectors
     P, Q, DP = sampled.evaluate(system.vectors[:, window], ("P", "Q", "DP"))
     external = duplicate_roots(kappa, system.energies, partner)
-    V = hamiltonian.local_potential(terms, r)
     spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, w, V, fset.c, external,
-                    r=r, wall=fset.wall_radius, reference=reference)
+                    r=r, wall=fset.wall_radius, reference=reference, window=window)
     return basis, with_flags(spec, precision_flags(system, moved)), system, sampled
 
 
-def _roots(H, S, system: Eigensystem, c: float, sample, w, order=None) -> tuple[Eigensystem, np.ndarray]:
+def _roots(H, S, system: Eigensystem, c: float, sample, w, order=None,
+           reorthogonalise: bool = True) -> tuple[Eigensystem, np.ndarray]:
     """From eigh's roots to the final ones (:mod:`relbasis.eigen`, :mod:`relbasis.precision`):
     shift and invert where a root above the edge has lost digits and is too close to others for
     inverse iteration (at large c), the negative-continuum edge, inverse iteration of the
     window and of the roots that have lost digits.  ``sample(vectors)`` gives
     (P, Q) on the grid of weights w.  Returns the system and the mask of the roots moved
-    below the edge -2c^2.
+    below the edge -2c^2.  ``reorthogonalise``: see :func:`relbasis.eigen.refine`.
     """
     floor = -2 * c * c
     above = system.energies > floor + EDGE_MARGIN * system.error
@@ -223,7 +239,7 @@ def _roots(H, S, system: Eigensystem, c: float, sample, w, order=None) -> tuple[
     # iteration could turn it into one of them
     polish = gap(system.energies, c) | (lost(system, POLISH_SHARE) & isolated(system))
     polish[near_edge(system, floor)] = False
-    system = refine(system, H, S, polish, order)
+    system = refine(system, H, S, polish, order, reorthogonalise=reorthogonalise)
     if moved.any():  # refine re-sorts: find the moved roots again (they sit alone just below the edge)
         moved = system.energies == np.nextafter(floor, -np.inf)
     return system, moved
@@ -235,7 +251,7 @@ C_MAX = 1e10
 
 
 def solve(config=None, *, c: float | None = None, allow_large: bool = False, progress: bool | None = None,
-          terms=(), **overrides) -> Solution:
+          terms=(), threads: int | None = 1, **overrides) -> Solution:
     """Spectra of the requested symmetries (see :func:`as_config` for the ways to pass a config).
 
     ``c`` replaces the speed of light (atomic units) for checks of the nonrelativistic limit
@@ -266,6 +282,14 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
         Potential terms added to the nucleus in H (:mod:`relbasis.hamiltonian`), each with a
         name the Solution, its JSON document and the exported file record; the reduced basis of
         the error estimate gets them too.
+    threads : int or None
+        Threads solving the symmetries side by side (groups of equal |kappa|); the result is
+        the same to the bit with any number.  1 (default): one symmetry after another.  None:
+        one per core beside the BLAS threads (read from OPENBLAS_NUM_THREADS, OMP_NUM_THREADS,
+        MKL_NUM_THREADS, which relbasis sets to 1 unless they are set), at most one per |kappa|,
+        and one above PARALLEL_ROWS rows.  Measured on the project's 2-core machine (docs/performance.md):
+        at most 7 % faster when it is idle, up to 2x slower when it is busy, since eigh itself
+        does not run faster on two cores at these sizes.
     **overrides
         Section-qualified keys that replace those of ``config``: ``ion={"Z": 92}``, or spec
         objects, ``ion=IonSpec(92)``, ``basis=BasisSpec(size=60)`` (their keys that are not None).
@@ -295,22 +319,66 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
         raise InputError(f"c = {c!r}: the speed of light must be a number with 1 < c <= {C_MAX:.0e} "
                          "(default 1/alpha; docs/nonrelativistic.md)")
     c = C if c is None else float(c)
+    _checked_threads(threads)
     cfg, nucleus = resolve(as_config(config, **overrides), c)
     small = reduced_config(cfg)
     estimate = budget.check(budget.solve_estimate(cfg), f"basis.size = {cfg.basis.size}",
                             allow_large, option("allow_large=True", "--allow-large"))
+    workers = _workers(threads, estimate.rows, _groups(cfg))
     bar = _progress_bar(estimate, progress, len(cfg.solve.kappas) * (2 if small is not None else 1))
     try:
-        reference = {}  # no reduced basis can be made: no level can be confirmed (all unconverged)
-        if small is not None:
-            rough = _solve_resolved(small, nucleus, c, None, bar, terms)
-            reference = {k: {n: float(e) for n, e, b in zip(s.n, s.energies, s.branches)
-                             if n is not None and b == "bound"} for k, s in rough.spectra.items()}
-            del rough  # its vectors are not needed beyond the levels: free them before the full solve
-        return _solve_resolved(cfg, nucleus, c, reference, bar, terms)
+        return _solve_resolved(cfg, small, nucleus, c, bar, terms, workers)
     finally:
         if bar is not None:
             bar.close()
+
+
+PARALLEL_ROWS = 1000
+"""Largest matrix (rows) whose symmetries are solved in parallel threads by default: each
+thread holds the working set of one symmetry (about 12 n^2 doubles, relbasis.budget), 100 MB at
+1000 rows; beyond, the symmetries run one after another and the memory estimate holds as stated."""
+
+
+def _cores() -> int:
+    try:
+        return len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):
+        return os.cpu_count() or 1
+
+
+def _blas_threads() -> int:
+    """Threads of the BLAS as its environment sets them (relbasis sets 1 unless the user chose;
+    it holds when relbasis is imported before numpy)."""
+    for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+        try:
+            return max(1, int(os.environ.get(var, "")))
+        except ValueError:
+            continue
+    return _cores()  # not set: the BLAS may take every core
+
+
+def _checked_threads(threads):
+    """``threads`` as given, if it is None or a positive integer; else a one-line InputError."""
+    if threads is not None and (isinstance(threads, bool) or not isinstance(threads, int) or threads < 1):
+        raise InputError(f"threads = {threads!r}: give a positive number of threads (1: one symmetry after another; "
+                         "None: as many as the cores allow)")
+    return threads
+
+
+def _workers(threads, rows: int, groups: int) -> int:
+    """Threads of a solve: ``threads`` if given, else (None) as many as the cores allow beside
+    the BLAS threads, at most one per group of symmetries, and one for matrices above
+    PARALLEL_ROWS rows."""
+    if threads is not None:
+        return max(1, min(_checked_threads(threads), groups))
+    if rows > PARALLEL_ROWS:
+        return 1
+    blas = _blas_threads()
+    return max(1, min(groups, _cores() // blas))
+
+
+def _groups(cfg: Config) -> int:
+    return len({abs(k) for k in cfg.solve.kappas})
 
 
 def _progress_bar(estimate, progress: bool | None, total: int):
@@ -335,18 +403,63 @@ def _finished(bar):
         bar.update(1)
 
 
-def _solve_resolved(cfg: Config, nucleus: Nucleus, c: float, reference: dict | None, bar=None,
-                    extra=()) -> Solution:
-    """The spectra of a resolved config; ``reference`` (kappa -> {n: eps}) feeds the estimates;
-    ``extra``: potential terms added to the nucleus."""
+def _solve_resolved(cfg: Config, small: Config | None, nucleus: Nucleus, c: float, bar=None, extra=(),
+                    workers: int = 1) -> Solution:
+    """The spectra of a resolved config, with the reduced basis ``small`` (None: none can be
+    made) solved first for the error estimates; ``extra``: potential terms added to the nucleus.
+
+    The symmetries are solved in groups of equal |kappa|, -kappa before +kappa (the
+    duplicate-level check of kappa > 0 looks at -kappa), each group reduced basis first: the
+    full basis of kappa needs only the reduced levels of the same kappa.  With ``workers`` > 1
+    the groups run in a pool of threads (numpy and LAPACK release the interpreter lock); every
+    symmetry is computed by the same operations in the same order as by one thread, so the
+    result is the same to the bit.  An error is raised as one thread would have met it: the
+    first in the order reduced basis then full basis, each in kappa order.
+    """
+    rough_set = family_of(small).build_set(small, nucleus, c) if small is not None else None
     fset = family_of(cfg).build_set(cfg, nucleus, c)
     terms = (hamiltonian.nucleus_term(nucleus), *extra)
-    bases, spectra, systems, sampled = {}, {}, {}, {}
-    for kappa in _kappa_order(cfg):
-        _starting(bar, f"{'reduced basis, ' if reference is None else ''}kappa {kappa:+d}")
-        bases[kappa], spectra[kappa], systems[kappa], sampled[kappa] = solve_symmetry(
-            fset, kappa, terms, spectra.get(-kappa), _for(reference, kappa))
-        _finished(bar)
+    order = _kappa_order(cfg)
+    stage = {("reduced", k): i for i, k in enumerate(order)} | {("full", k): len(order) + i for i, k in enumerate(order)}
+    groups = [[k for k in order if abs(k) == a] for a in dict.fromkeys(abs(k) for k in order)]
+
+    def run(group):
+        done, failed = {}, None
+        try:
+            reference, rough = {}, {}
+            for kappa in group:
+                failed = ("reduced", kappa)
+                if rough_set is None:  # no reduced basis: no level can be confirmed (all unconverged)
+                    reference[kappa] = {}
+                    continue
+                _starting(bar, f"reduced basis, kappa {kappa:+d}")
+                spec = solve_symmetry(rough_set, kappa, terms, rough.get(-kappa), None, levels_only=True)[1]
+                rough[kappa] = spec
+                reference[kappa] = {n: float(e) for n, e, b in zip(spec.n, spec.energies, spec.branches)
+                                    if n is not None and b == "bound"}
+                _finished(bar)
+            del rough  # its vectors are not needed beyond the levels: free them before the full solve
+            spectra = {}
+            for kappa in group:
+                failed = ("full", kappa)
+                _starting(bar, f"kappa {kappa:+d}")
+                done[kappa] = solve_symmetry(fset, kappa, terms, spectra.get(-kappa), reference[kappa])
+                spectra[kappa] = done[kappa][1]
+                _finished(bar)
+            return done, None
+        except Exception as err:  # noqa: BLE001  (re-raised below, in the order one thread meets it)
+            return done, (stage[failed], err)
+
+    if workers > 1 and len(groups) > 1:
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            results = list(pool.map(run, groups))
+    else:
+        results = [run(g) for g in groups]
+    errors = [e for _, e in results if e is not None]
+    if errors:
+        raise min(errors, key=lambda e: e[0])[1]
+    parts = {k: v for done, _ in results for k, v in done.items()}
+    bases, spectra, systems, sampled = ({k: parts[k][i] for k in order} for i in range(4))
     return Solution(cfg, nucleus, getattr(fset, "splines", None), bases, spectra,
                     {k: s.dropped for k, s in systems.items()}, {k: s.condition for k, s in systems.items()},
                     getattr(fset, "table", None), None if hasattr(fset, "table") else fset.grid, c,

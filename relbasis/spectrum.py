@@ -220,10 +220,18 @@ def _dived(kappa: int, energies: np.ndarray, cand: np.ndarray, P: np.ndarray, Q:
     return out
 
 
-def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.ndarray, P: np.ndarray,
+def can_dive(r: np.ndarray | None, V: np.ndarray, c: float) -> bool:
+    """True where a level can dive below -2c^2: the charge -r V(r) exceeds c somewhere (a
+    potential deeper than Z alpha = 1 allows a point charge: finite nuclei near the critical
+    charges, about 170; min V < -2c^2 alone is not enough)."""
+    return r is not None and bool(np.min(r * V) < -c)
+
+
+def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.ndarray | None, P: np.ndarray,
              Q: np.ndarray, DP: np.ndarray, w: np.ndarray, V: np.ndarray, c: float,
              external: dict[int, str] | None = None, *, r: np.ndarray | None = None,
-             wall: float | None = None, reference: dict[int, float] | None = None) -> Spectrum:
+             wall: float | None = None, reference: dict[int, float] | None = None,
+             window: np.ndarray | None = None) -> Spectrum:
     """Branches, n, labels, flags and error estimates for the roots of one symmetry.
 
     ``P_all`` holds P of every root on an ascending radial grid, coarse or fine (it fixes the
@@ -240,12 +248,17 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     n comes from the node count of P (n - l - 1 nodes) and is cross-checked against the order
     of the roots within the symmetry: a root whose node count disagrees with its place gets
     the flag ``nodes-disagree`` (and no n at all if its node count repeats one already given).
+
+    ``P_all`` None leaves the roots not examined with the sign they came with, and ``window``
+    (a mask) may name the columns of P, Q, DP instead of :func:`examined`: the gap alone where
+    no level can dive (:func:`can_dive`); both for the reduced basis of the error estimate,
+    whose levels alone are kept.
     """
     external = external or {}
     l = orbital_l(kappa)
-    window = examined(energies, c)
+    window = examined(energies, c) if window is None else window
     gap = window & (energies > -2 * c * c)
-    sign = _first_sign(P_all)
+    sign = np.ones(energies.size) if P_all is None else _first_sign(P_all)
     sign[window] = _first_sign(P)
     vectors = vectors * sign[None, :]
     P, Q, DP = P * sign[window], Q * sign[window], DP * sign[window]
@@ -275,8 +288,7 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     dived = {}
     # a level can dive only in a potential deeper than Z alpha = 1 allows a point charge (finite
     # nuclei; the critical charges lie near 170): min V < -2c^2 alone is not enough
-    if (lowest is not None and lowest > l + 1 and np.any(window & ~gap) and r is not None
-            and np.min(r * V) < -c):
+    if lowest is not None and lowest > l + 1 and np.any(window & ~gap) and can_dive(r, V, c):
         below = window & ~gap
         dived = _dived(kappa, energies, np.flatnonzero(below), P[:, ~in_gap], Q[:, ~in_gap], r, w,
                        list(range(l + 1, lowest)))
@@ -326,8 +338,6 @@ def duplicate_roots(kappa: int, energies: np.ndarray, partner: Spectrum | None,
     lone = np.array([e for e, m in zip(partner.energies, partner.n) if m is not None and m < orbital_l(kappa) + 1])
     if lone.size == 0:
         return {}
-    out = {}
-    for i, eps in enumerate(energies):
-        if eps < 0 and np.any(np.abs(eps - lone) <= tol * np.abs(lone)):
-            out[i] = "duplicate-level"
-    return out
+    e = np.asarray(energies)
+    hit = (e < 0) & np.any(np.abs(e[:, None] - lone[None, :]) <= tol * np.abs(lone)[None, :], axis=1)
+    return {int(i): "duplicate-level" for i in np.flatnonzero(hit)}

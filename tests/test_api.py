@@ -139,3 +139,18 @@ def test_validation_helpers():
             bad()
     with pytest.raises(InputError, match="did you mean 'fermi'"):
         validate.choice("k", "fermy", ("fermi", "gauss"))
+
+
+def test_threads_give_the_same_spectra_to_the_bit():
+    """Symmetries solved side by side (threads) and one after another agree exactly; a bad
+    thread count is a one-line input error (docs/performance.md, Threads)."""
+    kw = dict(ion={"Z": 26, "nucleus": "point"}, basis={"size": 40}, solve={"kappas": [-1, 1, -2, 2]})
+    one, two = relbasis.solve(None, threads=1, **kw), relbasis.solve(None, threads=2, **kw)
+    for kappa in one:
+        a, b = one[kappa], two[kappa]
+        assert np.array_equal(a.energies, b.energies) and np.array_equal(a.vectors, b.vectors)
+        assert (a.n, a.branches, a.flags) == (b.n, b.branches, b.flags)
+        assert np.array_equal(a.error_estimate, b.error_estimate, equal_nan=True)
+    for bad in (0, -1, 1.5, True):
+        with pytest.raises(InputError, match="threads"):
+            relbasis.solve(None, threads=bad, **kw)

@@ -22,7 +22,9 @@ def run_unit(config: dict) -> dict:
     from ..solver import solve
 
     t0 = time.perf_counter()
-    sol = solve(config, allow_large=True, progress=False)  # its work was checked with the plan (check_units)
+    # its work was checked with the plan (check_units); one thread: the scan's own workers
+    # (processes, or a cluster's) already fill the cores
+    sol = solve(config, allow_large=True, progress=False, threads=1)
     levels = {}
     spurious = 0
     for kappa in sol.kappas:
