@@ -63,6 +63,20 @@ DEFAULT_CAVITY = 250.0
 """Default cavity radius times Z (bohr): r_max = 250/Z with the default 100 splines holds the
 point-nucleus levels n <= 7 of |kappa| <= 4 to 2e-12 (Z <= 100) and 1e-10 (Z = 118); the
 earlier 150/Z (90 splines) left n = 6 at 1e-8 and n = 7 at 1e-5 (docs/convergence.md)."""
+ATOM_CAVITY = 40.0
+"""Default cavity (bohr) of a config with electrons, divided by the charge an outer electron sees
+(Z - N_core for a valence electron, Z - N + 1 for the outermost core electron): the valence 6s of
+Cs, bound by 0.128 hartree, decays as exp(-0.51 r) and holds 1e-17 of its norm beyond 40 bohr."""
+
+
+def default_cavity(Z: float, electrons=None) -> float:
+    """The default r_max (bohr): 250/Z for one electron, ATOM_CAVITY / (charge seen) with a core."""
+    if electrons is None:
+        return DEFAULT_CAVITY / Z
+    seen = Z - electrons.core_electrons + (0 if electrons.valence is not None else 1)
+    return max(ATOM_CAVITY / max(seen, 1.0), DEFAULT_CAVITY / Z)
+
+
 DEFAULT_ORDER = 10
 GAUSS_ZMAX_CORE = 1e6  # x Z^2
 GAUSS_ZMAX_NUCLEUS = 3.0  # / R_rms^2
@@ -577,7 +591,7 @@ def _resolve(config: Config, c: float = C) -> tuple[Config, Nucleus]:
         return Config(ion, basis, config.solve, config.electrons), nuc
     if Z == 0 and b.r_max is None and not isinstance(b.knots, tuple):
         raise InputError("ion.Z = 0 (a free particle) needs basis.r_max, the cavity radius in bohr")
-    r_max = b.r_max if b.r_max is not None else DEFAULT_CAVITY / Z
+    r_max = b.r_max if b.r_max is not None else default_cavity(Z, config.electrons)
     if b.r_min is not None:
         r_min = b.r_min
     elif Z == 0:
@@ -595,7 +609,10 @@ def _resolve(config: Config, c: float = C) -> tuple[Config, Nucleus]:
         r_scale = r_max / 20 if Z == 0 else min(20.0 / Z, r_max / 2)
     quad = b.quadrature if b.quadrature is not None else b.order + 4
     size = b.size if b.size is not None else DEFAULT_SIZE["bspline"]
-    knots = b.knots if b.knots is not None else "log-linear"
+    # an atom's cavity is tens of bohr: log-linear knots at 20/Z then leave the nucleus
+    # under-resolved (levels off by 1e3 hartree at Z = 55, r_max = 40); exponential knots hold
+    # the one-electron levels to 1e-11 there (measured; docs/dhf.md)
+    knots = b.knots if b.knots is not None else ("exponential" if config.electrons is not None else "log-linear")
     wall = b.wall if b.wall is not None else "dirichlet"
     basis = replace(b, size=size, r_min=r_min, r_max=r_max, r_scale=r_scale, quadrature=quad, knots=knots, wall=wall)
     return Config(ion, basis, config.solve, config.electrons), nuc

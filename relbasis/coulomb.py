@@ -72,15 +72,18 @@ def yk(r: np.ndarray, w: np.ndarray, rho: np.ndarray, k: int, nq: int) -> np.nda
     """Y^k(r) of every column of ``rho`` at the grid points (module docstring).
 
     ``rho`` is (points,) or (points, m), given on the panel grid r with weights w.  The outer
-    integral is the total minus the partial one; both are taken of smooth integrands
-    (s^k rho and s^(-k-1) rho), so the spectral integration keeps its accuracy.
+    integral runs from the right end, the inner from the origin: both of smooth integrands
+    (s^k rho and s^(-k-1) rho), and neither a difference of large numbers.
     """
     rho = np.asarray(rho, dtype=float)
     col = rho.reshape(rho.shape[0], -1)
     rk = r**k
     inner = cumulative(w, col * rk[:, None], nq)
     g = col / (rk * r)[:, None]
-    outer = (w @ g)[None, :] - cumulative(w, g, nq)
+    # int_r^inf from the right (the grid reversed is again a panel grid of Gauss nodes): the total
+    # minus the partial integral would cancel catastrophically far out, where r^(k+1) then
+    # multiplies the rounding of a large total (1e-16 of 1e12 for a function near the origin)
+    outer = cumulative(w[::-1], g[::-1], nq)[::-1]
     out = inner / rk[:, None] + outer * (rk * r)[:, None]
     return out.reshape(rho.shape)
 

@@ -49,7 +49,7 @@ from . import coulomb, eigen, hamiltonian
 from .angular import reduced_c
 from .errors import InputError
 from .families import family_of
-from .solver import _roots as roots
+from .solver import final_roots
 from .spectrum import balance_residual
 from .vocabulary import j_twice, orbital_l
 
@@ -109,13 +109,13 @@ class MeanField:
     """The converged core: its orbitals, energies and the potential of the frozen-core basis.
 
     ``total_energy`` is the binding energy of the core (hartree, rest mass excluded) with its
-    parts ``one_body``, ``direct`` and ``exchange``; ``orbitals`` the core subshells in the
-    order of the config; ``history`` the iteration table.  :meth:`terms` gives the potential as
+    parts ``one_body``, ``direct`` and ``exchange``; ``core`` the core subshells (:class:`Orbital`) in
+    the order of the config, ``orbitals`` their binding energies by label; ``history`` the iteration table.  :meth:`terms` gives the potential as
     two Hamiltonian terms, "direct" (local) and "exchange" (nonlocal), valid in any basis.
     """
 
     electrons: object = field(repr=False)
-    orbitals: tuple[Orbital, ...]
+    core: tuple[Orbital, ...]
     total_energy: float
     one_body: float
     direct: float
@@ -134,13 +134,35 @@ class MeanField:
     guess: str = "thomas-fermi"
 
     @property
-    def energies(self) -> dict[str, float]:
-        """{label: binding energy} of the core orbitals (hartree)."""
-        return {o.label: o.energy for o in self.orbitals}
+    def converged_text(self) -> str:
+        return "converged" if self.converged else "not converged"
+
+    def to_dict(self) -> dict:
+        """The JSON ``scf`` object: total energy and its parts, orbitals {label: hartree}, <r>,
+        <r^2>, iterations, convergence, time."""
+        return {
+            "total_energy_hartree": self.total_energy,
+            "one_body_hartree": self.one_body,
+            "direct_hartree": self.direct,
+            "exchange_hartree": self.exchange,
+            "orbitals": self.orbitals,
+            "occupations": {o.label: o.occupancy for o in self.core},
+            "r_mean_bohr": {o.label: o.r_mean for o in self.core},
+            "r2_mean_bohr2": {o.label: o.r2_mean for o in self.core},
+            "iterations": self.iterations,
+            "converged": self.converged,
+            "seconds": self.seconds,
+            "guess": self.guess,
+        }
+
+    @property
+    def orbitals(self) -> dict[str, float]:
+        """{label: binding energy} of the core orbitals (hartree), in the order of the config."""
+        return {o.label: o.energy for o in self.core}
 
     @property
     def electron_count(self) -> int:
-        return int(sum(o.occupancy for o in self.orbitals))
+        return int(sum(o.occupancy for o in self.core))
 
     def direct_potential(self, r) -> np.ndarray:
         """J(r) at any radii: inside the SCF grid through the panels' polynomials
@@ -156,20 +178,21 @@ class MeanField:
         """P and Q of the core orbitals at radii r (points x orbitals), from their bases."""
         if r.shape == self.r.shape and np.array_equal(r, self.r):
             return self.P, self.Q
-        P, Q = np.empty((r.size, len(self.orbitals))), np.empty((r.size, len(self.orbitals)))
-        for i, o in enumerate(self.orbitals):
+        P, Q = np.empty((r.size, len(self.core))), np.empty((r.size, len(self.core)))
+        for i, o in enumerate(self.core):
             comp = self.bases[o.kappa].components(r)
             P[:, i], Q[:, i] = comp[0] @ o.coefficients, comp[1] @ o.coefficients
         return P, Q
 
     def exchange_matrix(self, sampled) -> np.ndarray:
-        """<i|K|j> of the basis functions ``sampled`` (one symmetry, a panel grid)."""
+        """The exchange term's matrix, -<i|K|j>, of the basis functions ``sampled`` (one
+        symmetry, a panel grid): F = h + J - K."""
         kappa, nq = sampled.kappa, sampled.panel_points
         if kappa is None or nq is None:
             raise InputError("the exchange term needs basis functions that know their kappa and quadrature panels")
         Pc, Qc = self.orbital_values(sampled.r)
-        occupied = [(o.kappa, Pc[:, i], Qc[:, i]) for i, o in enumerate(self.orbitals)]
-        return exchange(sampled, occupied, nq)
+        occupied = [(o.kappa, Pc[:, i], Qc[:, i]) for i, o in enumerate(self.core)]
+        return -exchange(sampled, occupied, nq)
 
     def terms(self) -> tuple[hamiltonian.LocalTerm, hamiltonian.NonlocalTerm]:
         """The core's potential as Hamiltonian terms: "direct" (local) and "exchange" (nonlocal)."""
@@ -400,7 +423,7 @@ def _diagonalise(s: _Symmetry, F: np.ndarray, c: float, r, w, V_local) -> None:
     system = eigen.solve(F, s.S)
     # at large c eigh alone loses the bound roots' digits: the solver's shift-and-invert and
     # inverse iteration give them back (relbasis.eigen)
-    system, _ = roots(F, s.S, system, c, lambda v: s.sampled.evaluate(v, ("P", "Q")), w, s.basis.band_order()
+    system, _ = final_roots(F, s.S, system, c, lambda v: s.sampled.evaluate(v, ("P", "Q")), w, s.basis.band_order()
                       if hasattr(s.basis, "band_order") else None)
     s.energies, s.vectors = system.energies, system.vectors
     candidates = np.flatnonzero(system.energies > -c * c)

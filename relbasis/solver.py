@@ -16,7 +16,7 @@ from __future__ import annotations
 import os
 import sys
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 
 import numpy as np
 
@@ -57,6 +57,7 @@ class Solution:
     sampled: dict = field(default_factory=dict, repr=False)  # kappa -> the basis functions on the quadrature
     terms: tuple[str, ...] = ("kinetic", "rest-mass", "nucleus")  # names of the Hamiltonian's parts
     family_set: object = field(default=None, repr=False)  # the family's per-solve set (relbasis.families)
+    scf: object = field(default=None, repr=False)  # the mean field of a core (relbasis.scf.MeanField), else None
 
     @property
     def grid(self) -> tuple[np.ndarray, np.ndarray]:
@@ -99,14 +100,15 @@ class Solution:
         return kappa in self.spectra
 
     def exact(self, kappa: int, n: int) -> float | None:
-        """Exact Dirac–Coulomb binding energy for a point nucleus, else None."""
-        if self.nucleus.model != "point" or self.nucleus.Z == 0:
+        """Exact Dirac–Coulomb binding energy for a point nucleus (one electron), else None."""
+        if self.nucleus.model != "point" or self.nucleus.Z == 0 or self.scf is not None:
             return None
         return dirac_coulomb_energy(self.nucleus.Z, n, kappa, self.c)
 
     def states(self) -> list[dict]:
         """Every root once, in symmetry order then ascending energy (the JSON ``states`` list)."""
         out = []
+        core = None if self.scf is None else {(o.kappa, o.n) for o in self.scf.core}
         for kappa in self.kappas:
             spec = self.spectra[kappa]
             for i, eps in enumerate(spec.energies):
@@ -119,6 +121,8 @@ class Solution:
                     "flags": list(spec.flags[i]),
                     "error_estimate": _estimate(spec, i),
                 }
+                if core is not None and (kappa, spec.n[i]) in core:
+                    rec["occupied"] = True
                 if spec.n[i] is not None and self.exact(kappa, spec.n[i]) is not None:
                     ex = self.exact(kappa, spec.n[i])
                     rec["exact_hartree"] = ex
@@ -131,14 +135,18 @@ class Solution:
         basis = self.config.to_dict()["basis"]
         basis["functions"] = {str(k): self.bases[k].size for k in self.kappas}
         basis["dropped"] = {str(k): self.dropped.get(k, 0) for k in self.kappas}
-        return {
+        doc = {
             "relbasis": __version__,
             "constants": constants.as_dict() | {"c_used": self.c},
             "ion": self.nucleus.to_dict(),
             "basis": basis,
             "hamiltonian": list(self.terms),  # the parts of H that were solved, by name
-            "states": self.states(),
         }
+        if self.scf is not None:
+            doc["electrons"] = self.config.electrons.to_dict()
+            doc["scf"] = self.scf.to_dict()
+        doc["states"] = self.states()
+        return doc
 
 
 def _estimate(spec: Spectrum, i: int) -> float | None:
@@ -197,7 +205,7 @@ def solve_symmetry(fset, kappa: int, terms, partner: Spectrum | None = None,
     cause = fset.cause()
     check_matrices(kappa, H, S, cause)
     r, w = sampled.r, sampled.w
-    system, moved = _roots(H, S, eigensolve(H, S, fset.threshold), fset.c,
+    system, moved = final_roots(H, S, eigensolve(H, S, fset.threshold), fset.c,
                            lambda v: sampled.evaluate(v, ("P", "Q")), w, fset.band_order(basis),
                            reorthogonalise=not levels_only)
     check_roots(kappa, system.energies, system.vectors, system.error, cause)
@@ -216,7 +224,7 @@ def solve_symmetry(fset, kappa: int, terms, partner: Spectrum | None = None,
     return basis, with_flags(spec, precision_flags(system, moved)), system, sampled
 
 
-def _roots(H, S, system: Eigensystem, c: float, sample, w, order=None,
+def final_roots(H, S, system: Eigensystem, c: float, sample, w, order=None,
            reorthogonalise: bool = True) -> tuple[Eigensystem, np.ndarray]:
     """From eigh's roots to the final ones (:mod:`relbasis.eigen`, :mod:`relbasis.precision`):
     shift and invert where a root above the edge has lost digits and is too close to others for
@@ -309,7 +317,7 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
     bad = [t for t in terms if not isinstance(t, (hamiltonian.LocalTerm, hamiltonian.NonlocalTerm))]
     if bad:
         raise InputError(f"terms: {bad[0]!r} is not a Hamiltonian term (relbasis.hamiltonian.LocalTerm or NonlocalTerm)")
-    taken = {"kinetic", "rest-mass", "nucleus"}
+    taken = {"kinetic", "rest-mass", "nucleus", "direct", "exchange"}
     for t in terms:
         if t.name in taken or not t.name:
             raise InputError(f"terms: the name {t.name!r} is taken or empty; give each term a name of its own")
@@ -326,8 +334,15 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
                             allow_large, option("allow_large=True", "--allow-large"))
     workers = _workers(threads, estimate.rows, _groups(cfg))
     bar = _progress_bar(estimate, progress, len(cfg.solve.kappas) * (2 if small is not None else 1))
+    mean_field = None
+    if cfg.electrons is not None:
+        from . import scf  # lazy (upward): the mean field diagonalises with this module's root pipeline
+
+        mean_field = scf.run(cfg, nucleus, c, progress=progress)
+        terms = (*mean_field.terms(), *terms)
     try:
-        return _solve_resolved(cfg, small, nucleus, c, bar, terms, workers)
+        sol = _solve_resolved(cfg, small, nucleus, c, bar, terms, workers)
+        return sol if mean_field is None else replace(sol, scf=mean_field)
     finally:
         if bar is not None:
             bar.close()

@@ -34,7 +34,7 @@ LAYERS: tuple[tuple[str, ...], ...] = (
     ("spectrum",),
     # 10 the solver, then what is computed from a solution
     ("solver",),
-    ("integrals", "critical", "plots", "reader", "measures"),
+    ("integrals", "critical", "plots", "reader", "measures", "scf"),
     ("checks", "writer", "scan"),
     ("audit",),
     ("report",),
@@ -47,6 +47,7 @@ LAYERS: tuple[tuple[str, ...], ...] = (
 ALLOWED_UPWARD: dict[tuple[str, str], str] = {
     ("config", "nucleus"): "resolving a config builds its Nucleus; validation itself needs no physics",
     ("config", "budget"): "the size check of a config estimates memory with the solver's budget",
+    ("solver", "scf"): "a config with a core runs the mean field first, which diagonalises with the solver's pipeline",
 }
 """Function-level imports against the layer order, each with the reason it is lazy."""
 
