@@ -150,7 +150,7 @@ def ion_line(nuc) -> str:
 def levels_table(sol, show_all: bool = False) -> str:
     """The readable table of `relbasis levels`."""
     nuc = sol.nucleus
-    point = nuc.model == "point" and nuc.Z > 0
+    point = (nuc.model == "point" and nuc.Z > 0) and sol.scf is None  # exact values are one-electron ones
     lines = [f"relbasis {__version__}: {ion_line(nuc)}"]
     lines.append(basis_line(sol))
     lines.append(f"constants: CODATA {constants.CODATA}, alpha = {constants.ALPHA:.13g}, 1 hartree = {constants.HARTREE_EV:.12g} eV")
@@ -162,11 +162,14 @@ def levels_table(sol, show_all: bool = False) -> str:
     head += "  flags"
     lines.append(head)
     dived = []
+    core = set() if sol.scf is None else {(o.kappa, o.n) for o in sol.scf.core}
     for kappa in sol.kappas:
         spec = sol[kappa]
         counts = {br: len(spec.indices(br)) for br in ("negative", "bound", "positive", "spurious")}
         for i, eps in enumerate(spec.energies):
             br = spec.branches[i]
+            if (kappa, spec.n[i]) in core and br == "bound":
+                br = "core"  # an occupied orbital of the mean field (bound, and in the core)
             if "dived" in spec.flags[i]:
                 dived.append(spec.labels[i])
             elif not show_all and br in ("negative", "positive"):
@@ -189,7 +192,7 @@ def levels_table(sol, show_all: bool = False) -> str:
     from .confidence import CONFIDENCE_THRESHOLD
     lines.append(f"est. error: relative error estimated from the basis itself (a reduced basis and the cavity wall); "
                  f"a level above {CONFIDENCE_THRESHOLD:.0e} is flagged unconverged or cavity-limited.")
-    lines.append("A row is plainly trustworthy only when its branch is bound and it carries no flag.")
+    lines.append("A row is plainly trustworthy only when its branch is bound (or core: an occupied orbital of the mean field) and it carries no flag.")
     for label in dived:
         lines.append(f"dived: {label} lies below -2 m c^2, in the negative continuum (the charge exceeds its "
                      f"critical value); the levels above keep their own n.")
@@ -321,7 +324,55 @@ def _cmd_levels(args) -> int:
     if args.json:
         print(json.dumps(sol.to_dict(), indent=1))
     else:
+        if sol.scf is not None:
+            print(mean_field_table(sol))
+            print()
         print(levels_table(sol, args.all))
+    return 0
+
+
+# ----------------------------------------------------------------------------- mean field
+
+
+def mean_field_table(sol, iterations: bool = False) -> str:
+    """The readable table of a core: energies, orbitals, convergence (``relbasis mean-field``)."""
+    mf, cfg = sol.scf, sol.config
+    ion = sol.nucleus
+    charge = ion.Z - mf.electron_count - (1 if cfg.electrons.valence is not None else 0)
+    lines = [
+        f"relbasis {__version__} Dirac–Hartree–Fock core of Z = {ion.Z:g} ({ion.model} nucleus), "
+        f"{mf.electron_count} core electrons"
+        + (f" + valence {cfg.electrons.valence.label}" if cfg.electrons.valence is not None else "")
+        + f", charge {charge:+g}",
+        f"{'converged' if mf.converged else 'NOT CONVERGED'} in {mf.iterations} iterations, {mf.seconds:.1f} s "
+        f"(start: {mf.guess}); c = {sol.c:.10g}",
+        "",
+        f"  total energy of the core {mf.total_energy:22.12f} hartree (rest mass excluded)",
+        f"    one-body             {mf.one_body:22.12f}",
+        f"    direct               {mf.direct:22.12f}",
+        f"    exchange             {mf.exchange:22.12f}",
+        "",
+        f"  {'orbital':<8} {'q':>3} {'energy (hartree)':>22} {'<r> (bohr)':>14} {'<r^2> (bohr^2)':>16}",
+    ]
+    lines += [f"  {o.label:<8} {o.occupancy:>3} {o.energy:22.12f} {o.r_mean:14.8f} {o.r2_mean:16.8f}" for o in mf.core]
+    if iterations:
+        lines += ["", f"  {'iter':>4} {'energy (hartree)':>22} {'change':>10} {'orbital step':>13} {'DIIS':>5}"]
+        lines += [f"  {h.index:>4} {h.energy:22.12f} {h.change:10.1e} {h.step:13.1e} {h.diis:>5}" for h in mf.history]
+    lines += ["", "Holds for the stated model only (Dirac–Coulomb mean field, this nuclear model, no QED); "
+              "validate before use in publications."]
+    return "\n".join(lines)
+
+
+def _cmd_mean_field(args) -> int:
+    sol = _solution(args)
+    if sol.scf is None:
+        raise InputError("mean-field: the config has no [electrons] section; give the core, e.g. "
+                         '[electrons] core = "[Ne]" (docs/config.md)')
+    if args.json:
+        doc = sol.to_dict()
+        print(json.dumps({k: doc[k] for k in ("relbasis", "ion", "electrons", "scf")}, indent=1))
+    else:
+        print(mean_field_table(sol, iterations=True))
     return 0
 
 
@@ -385,6 +436,10 @@ def build_parser() -> argparse.ArgumentParser:
     lv.add_argument("--json", action="store_true", help="print the JSON document instead of the table")
     lv.add_argument("--all", action="store_true", help="list the continuum roots too")
     lv.set_defaults(func=_cmd_levels)
+    mf = _model_command(sub, "mean-field", "Dirac–Hartree–Fock core of a config with [electrons]: energies, orbitals",
+                        "Self-consistent Dirac–Hartree–Fock core: total energy and parts, orbital table, iterations.")
+    mf.add_argument("--json", action="store_true", help="print the JSON of the core (the scf object)")
+    mf.set_defaults(func=_cmd_mean_field)
     au = _model_command(sub, "audit", "diagnose a basis: checks, verdict, advice",
                         "Checks of a basis before a production run, with a verdict and advice.")
     au.add_argument("--max-n", type=int, default=5, metavar="N", help="bound states checked: n <= N (default 5)")

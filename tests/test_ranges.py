@@ -175,7 +175,7 @@ def test_nan_in_assembled_gaussian_matrices_is_named(monkeypatch):
 
 @pytest.mark.parametrize("field", ["energies", "vectors", "error"])
 def test_non_finite_roots_after_the_eigen_solve_are_named(monkeypatch, field):
-    original = solver._roots
+    original = solver.final_roots
 
     def poisoned(*args, **kwargs):
         system, moved = original(*args, **kwargs)
@@ -183,7 +183,7 @@ def test_non_finite_roots_after_the_eigen_solve_are_named(monkeypatch, field):
         value.flat[0] = np.inf
         return replace(system, **{field: value}), moved
 
-    monkeypatch.setattr(solver, "_roots", poisoned)
+    monkeypatch.setattr(solver, "final_roots", poisoned)
     with pytest.raises(NonFiniteError, match="eigen-solve of kappa -1 gave 1 non-finite"):
         relbasis.solve(None, **SMALL)
 
