@@ -20,7 +20,7 @@ from .version import __version__
 from .checks import CHECKS, CONFIDENCE_FLAGS, FALLBACK_ADVICE, STATUSES, Check, Context, Outcome, spread
 from .errors import InputError
 from .families import family_of
-from .measures import (balance_factor, closure, comparison_size, continuum_outliers, coulomb_reference,
+from .measures import (audited_levels, audited_scope, balance_factor, closure, comparison_size, continuum_outliers, coulomb_reference,
                        level_errors, per_state, resized, sum_rule)
 from .solver import Solution, as_config, solve
 
@@ -131,8 +131,10 @@ def audit(config=None, *, max_n: int = 5, target: float = 1e-8, c: float | None 
     sol = _audited(config, c, overrides)
     family = family_of(sol.config)
     rows = tuple(per_state(sol, max_n))
-    focus = tuple(s for s in rows if s["branch"] == "bound" and s["n"] is not None and s["n"] <= max_n)
-    context = Context(sol, family, rows, focus, max_n, target, spread(sol, family))
+    levels = audited_levels(sol, max_n)
+    focus = tuple(s for s in rows if s["branch"] == "bound" and (s["kappa"], s["n"]) in levels)
+    context = Context(sol, family, rows, focus, max_n, target, spread(sol, family), (), levels,
+                      audited_scope(sol, max_n))
     checks, advice, conv = [], [], {}
     for run in CHECKS:
         outcome = run(replace(context, advice=tuple(advice)))

@@ -119,6 +119,11 @@ class Context:
     target: float
     spread: bool
     advice: tuple[str, ...] = ()
+    levels: frozenset = frozenset()  # (kappa, n) of the levels judged (relbasis.measures.audited_levels)
+    scope: str = "n <= 5"  # how the details name them
+
+    def judged(self, kappa: int, n) -> bool:
+        return n is not None and (kappa, n) in self.levels
 
 
 @dataclass(frozen=True)
@@ -199,7 +204,7 @@ def node_count(ctx: Context) -> Outcome:
     bad = [s for s in ctx.focus if s["nodes"] != s["nodes_expected"]]
     return Outcome((Check("node-count", "warn" if bad else "pass", float(len(bad)), COUNT_ALLOWED,
                           ", ".join(f"{s['label']}: {s['nodes']} nodes" for s in bad) or
-                          f"all {len(ctx.focus)} bound states n <= {ctx.max_n} have n - l - 1 nodes"),))
+                          f"all {len(ctx.focus)} bound states {ctx.scope} have n - l - 1 nodes"),))
 
 
 def level_confidence(ctx: Context) -> Outcome:
@@ -208,9 +213,8 @@ def level_confidence(ctx: Context) -> Outcome:
     setting which fixes each kind (docs/audit.md)."""
     sol, family, max_n, target = ctx.solution, ctx.family, ctx.max_n, ctx.target
     b = sol.config.basis
-    low = [s for s in ctx.rows if s["branch"] == "bound" and s["n"] is not None and s["n"] <= max_n]
-    missing = [(k, n) for k in sol.kappas for n in range(orbital_l(k) + 1, max_n + 1)
-               if n not in sol[k].n]
+    low = [s for s in ctx.rows if s["branch"] == "bound" and ctx.judged(s["kappa"], s["n"])]
+    missing = sorted((k, n) for k, n in ctx.levels if n not in sol[k].n)
 
     def kinds_of(s):  # what withdraws the claim for this level, judged against the audit's target
         out = {f for f in s["flags"] if f in ("nodes-disagree", "precision-limited")}
@@ -223,16 +227,16 @@ def level_confidence(ctx: Context) -> Outcome:
     detail = ", ".join(f"{s['label']}: {'/'.join(f for f in s['flags'] if f in CONFIDENCE_FLAGS)}"
                        for s in bad[:_LIST_STATES])
     if missing:
-        detail = (detail + "; " if detail else "") + f"{len(missing)} levels n <= {max_n} not found"
+        detail = (detail + "; " if detail else "") + f"{len(missing)} levels {ctx.scope} not found"
     worst = max((s["error_estimate"] or 0.0 for s in low), default=0.0)
     if not bad and not missing:
         return Outcome((Check("level-confidence", "pass", worst, target,
-                              f"every level n <= {max_n} has an estimated error below the target {target:.0e} "
+                              f"every level {ctx.scope} has an estimated error below the target {target:.0e} "
                               f"(worst {worst:.1e}) and the node count its n asks for"),))
     advice = []
     if ctx.spread and ("nodes-disagree" in kinds or missing):
         advice.append(f"lower r_max to {default_cavity(sol):.4g} bohr (the default for this ion): with r_max = "
-                      f"{b.r_max:.3g} bohr the knots are spread too thin for the levels n <= {max_n}, whose labels "
+                      f"{b.r_max:.3g} bohr the knots are spread too thin for the levels {ctx.scope}, whose labels "
                       "and energies the basis cannot hold")
     elif "cavity-limited" in kinds:
         names = ", ".join(s["label"] for s in bad if "cavity-limited" in s["flags"])[:_LIST_WIDTH]
@@ -242,7 +246,7 @@ def level_confidence(ctx: Context) -> Outcome:
     if (size_bound or (missing and "cavity-limited" not in kinds)) and not ctx.spread:
         names = ", ".join(size_bound)
         advice.append(f"raise size to {b.size + max(CONFIDENCE_SIZE_STEP, b.size // CONFIDENCE_SIZE_SHARE)}: "
-                      + (f"{names[:_LIST_WIDTH]} not converged in size" if names else f"levels n <= {max_n} missing"))
+                      + (f"{names[:_LIST_WIDTH]} not converged in size" if names else f"levels {ctx.scope} missing"))
     return Outcome((Check("level-confidence", "fail", float(len(bad) + len(missing)), target, detail),),
                    tuple(advice))
 
@@ -267,7 +271,7 @@ def balance_residual_check(ctx: Context) -> Outcome:
     """balance-residual: worst exact balance residual of the bound states n <= max_n."""
     br = max((s["balance_residual"] or 0.0) for s in ctx.focus) if ctx.focus else 0.0
     return Outcome((Check("balance-residual", grade(br, BALANCE_WARN, BALANCE_FAIL), br, BALANCE_WARN,
-                          "||Q - c D+P/(2c^2 + eps - V)|| / ||Q||, worst bound state n <= %d" % ctx.max_n),))
+                          "||Q - c D+P/(2c^2 + eps - V)|| / ||Q||, worst bound state %s" % ctx.scope),))
 
 
 def kinetic_balance(ctx: Context) -> Outcome:
@@ -296,7 +300,7 @@ def small_weight(ctx: Context) -> Outcome:
               if ctx.solution.nucleus.Z > 0]
     sw = max(ratios) if ratios else 0.0
     return Outcome((Check("small-weight", grade(sw, SMALL_WEIGHT_WARN, SMALL_WEIGHT_FAIL), sw, SMALL_WEIGHT_WARN,
-                          "int Q^2 / ((Z alpha / n)^2 / 4), worst bound state n <= %d" % ctx.max_n),))
+                          "int Q^2 / ((Z alpha / n)^2 / 4), worst bound state %s" % ctx.scope),))
 
 
 def wall_fraction(ctx: Context) -> Outcome:
@@ -305,7 +309,7 @@ def wall_fraction(ctx: Context) -> Outcome:
     family, max_n = ctx.family, ctx.max_n
     wall = max((s["wall_fraction"] for s in ctx.focus), default=0.0)
     check = Check("wall-fraction", grade(wall, WALL_WARN, WALL_FAIL), wall, WALL_WARN,
-                  f"share of the norm {family.edge_words[1]}, worst bound state n <= {max_n}")
+                  f"share of the norm {family.edge_words[1]}, worst bound state {ctx.scope}")
     advice = ()
     if wall > WALL_WARN and not any(a.startswith("raise r_max") for a in ctx.advice):
         sol = ctx.solution
@@ -340,7 +344,7 @@ def closure_check(ctx: Context) -> Outcome:
     with_neg, without_neg, lowest = 0.0, 0.0, []
     for kappa in sol.kappas:
         spec = sol[kappa]
-        ns = [n for n in spec.n if n is not None and n <= max_n]
+        ns = [n for n in spec.n if ctx.judged(kappa, n)]
         for n in ns:
             a, b = closure(sol, kappa, n)
             with_neg, without_neg = max(with_neg, abs(a)), max(without_neg, abs(b))
@@ -348,8 +352,8 @@ def closure_check(ctx: Context) -> Outcome:
                 lowest.append(f"{spec.labels[spec.n.index(n)]}: {abs(a):.1e} / {abs(b):.1e}")
     return Outcome((
         Check("closure", grade(with_neg, CLOSURE_WARN, CLOSURE_FAIL), with_neg, CLOSURE_WARN,
-              "1 - sum_n |<a|r|n>|^2 / <a|r^2|a> over all roots, worst bound state n <= %d; lowest states "
-              "(with / without the negative branch): %s" % (max_n, ", ".join(lowest))),
+              "1 - sum_n |<a|r|n>|^2 / <a|r^2|a> over all roots, worst bound state %s; lowest states "
+              "(with / without the negative branch): %s" % (ctx.scope, ", ".join(lowest))),
         Check("closure-without-negative", "pass", without_neg, None,
               "the same sum without the negative-energy roots: what a basis without them would miss "
               "(keep them in sums over intermediate states)"),
@@ -360,6 +364,10 @@ def sum_rule_check(ctx: Context) -> Outcome:
     """sum-rule: |sum f| over all roots of the dipole oscillator strengths from the lowest bound
     level (a pass without a figure when a partner symmetry is not solved)."""
     sol = ctx.solution
+    if sol.scf is not None:  # the Thomas–Reiche–Kuhn rule needs a local potential: exchange breaks it
+        return Outcome((Check("sum-rule", "pass", None, None,
+                              "dipole sum rule not evaluated: the nonlocal exchange of the core breaks the "
+                              "Thomas–Reiche–Kuhn rule (it holds for local potentials only)"),))
     ground = min(((k, sol[k].n[i], sol[k].energies[i]) for k in sol.kappas for i in sol[k].indices("bound")
                   if sol[k].n[i] is not None), key=lambda kne: kne[2], default=None)
     rule = sum_rule(sol, *ground[:2]) if ground else None
@@ -394,17 +402,17 @@ def convergence(ctx: Context) -> Outcome:
     point = coulomb_reference(sol)
     other_size = comparison_size(b.size)
     reference = None if point else resized(sol, other_size)
-    errs = level_errors(sol, max_n, reference)
+    errs = level_errors(sol, max_n, reference, ctx.levels)
     worst = max(errs.values(), default=0.0)
     against = "the exact Dirac–Coulomb levels" if point else f"a basis of size {other_size}"
     found = bool(errs) or sol.nucleus.Z == 0
     check = Check("convergence", grade(worst, target, CONVERGENCE_FAIL) if found else "fail", worst, target,
-                  f"worst relative change of the bound levels n <= {max_n} against {against}"
-                  + ("" if found else "; no level n <= max_n found to compare"))
+                  f"worst relative change of the bound levels {ctx.scope} against {against}"
+                  + ("" if found else f"; no level {ctx.scope} found to compare"))
     advice = ()
     cavity_bound = any("cavity-limited" in r["flags"] for r in ctx.focus) or ctx.spread
     if worst > target and not cavity_bound and not any(a.startswith("raise size") for a in ctx.advice):
-        advice = (f"raise size to {b.size + CONVERGENCE_SIZE_STEP}: bound levels n <= {max_n} differ by "
+        advice = (f"raise size to {b.size + CONVERGENCE_SIZE_STEP}: bound levels {ctx.scope} differ by "
                   f"{worst:.1e} from {against} (target {target:g})",)
     return Outcome((check,), advice, {"levels": errs})
 

@@ -234,13 +234,33 @@ def overlap_condition(sol: Solution) -> float:
     return worst
 
 
-def level_errors(sol: Solution, max_n: int, reference: Solution | None) -> dict:
-    """Relative error of each bound level n <= max_n against exact values or a reference basis."""
+def audited_levels(sol: Solution, max_n: int) -> frozenset:
+    """(kappa, n) of the levels an audit judges: every n <= max_n of the solved kappas for one
+    electron; with a mean-field core, the core orbitals and the valence level of the solved
+    kappas (the levels the model is about; the other bound roots of the frozen core are the
+    cavity's discrete pseudo-states, part of the basis but no claim on a Rydberg series)."""
+    if sol.scf is None:
+        return frozenset((k, n) for k in sol.kappas for n in range(orbital_l(k) + 1, max_n + 1))
+    wanted = {(o.kappa, o.n) for o in sol.scf.core}
+    valence = sol.config.electrons.valence
+    if valence is not None:
+        wanted.add((valence.kappa, valence.n))
+    return frozenset((k, n) for k, n in wanted if k in sol.kappas)
+
+
+def audited_scope(sol: Solution, max_n: int) -> str:
+    """How the audit's details name the judged levels."""
+    return f"n <= {max_n}" if sol.scf is None else "of the core and valence"
+
+
+def level_errors(sol: Solution, max_n: int, reference: Solution | None, levels=None) -> dict:
+    """Relative error of each bound level n <= max_n (or of the (kappa, n) in ``levels``) against
+    exact values or a reference basis."""
     out = {}
     for kappa in sol.kappas:
         spec = sol[kappa]
         for e, n, lab in zip(spec.energies, spec.n, spec.labels):
-            if n is None or n > max_n:
+            if n is None or (n > max_n if levels is None else (kappa, n) not in levels):
                 continue
             ref = sol.exact(kappa, n)
             if ref is None and reference is not None:
