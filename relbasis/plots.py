@@ -92,7 +92,7 @@ def convergence_figure(series: dict, path, title: str, target: float | None = No
 
 
 def scan_figure(label: str, state: dict, target: float, path) -> None:
-    """Relative error of one tracked level against size, one line per series of the scan."""
+    """Relative error of one tracked level (or of a core's total energy) against size, one line per series of the scan."""
     plt = _pyplot()
     fig, ax = plt.subplots(figsize=(9, 5), dpi=110)
     series: dict[str, list] = {}

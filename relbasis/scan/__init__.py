@@ -18,6 +18,9 @@ target = 1e-9
 reference = "auto"            # "exact" (point nucleus), "largest" (largest basis of the scan), "auto"
 ```
 
+``[base.electrons]`` (a core, docs/dhf.md) goes into every unit: each runs the mean field, and
+the store and the analysis carry the core's total energy (docs/scan.md, "Scans of a core").
+
 Each *unit* is one basis for one ion with the symmetries the tracked states need.  Finished
 units are appended to ``results.jsonl`` in the output folder, one JSON line each, keyed by a
 hash of the unit's full configuration and the relbasis version; a rerun (or a changed plan)

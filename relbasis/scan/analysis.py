@@ -53,7 +53,8 @@ def analyse(plan: Plan, everything: list[Unit], records: dict[str, dict]) -> dic
     references = {}
     for gk, members in groups.items():
         ion = json.loads(gk)
-        point = members[0][1]["nucleus"] == "point" and members[0][1]["Z"] > 0
+        # the exact one-electron level is no reference for the levels of a mean field
+        point = members[0][1]["nucleus"] == "point" and members[0][1]["Z"] > 0 and "scf" not in members[0][1]
         use_exact = plan.reference == "exact" or (plan.reference == "auto" and point)
         largest = max(members, key=lambda m: (_size(m[1]), m[1]["resolved_basis"].get("order") or 0))
         refs = {}
@@ -88,9 +89,62 @@ def analyse(plan: Plan, everything: list[Unit], records: dict[str, dict]) -> dic
             if fit:
                 rates.append({"series": json.loads(sk), **fit})
         states[lab] = {"rows": rows, "rates": rates}
-    return {"relbasis": __version__, "plan": plan.to_dict(), "target": plan.target, "units": len(everything),
-            "finished": len(done), "references": list(references.values()), "states": states,
-            "recommended": _recommend(plan, states)}
+    summary = {"relbasis": __version__, "plan": plan.to_dict(), "target": plan.target, "units": len(everything),
+               "finished": len(done), "references": list(references.values()), "states": states}
+    core = core_convergence(plan, done)
+    if core is not None:  # only for a scan of a core: bare-nucleus summaries keep their layout
+        summary["core"] = core
+    summary["recommended"] = _recommend(plan, states, core)
+    return summary
+
+
+def core_convergence(plan: Plan, done: list) -> dict | None:
+    """The convergence of the core's total energy E (units with a mean field), None without.
+
+    Each row has E, its relative error |E / E_ref - 1| against the unit of the largest basis of
+    its ion (as for the levels: no exact total is known), and, for every axis, the relative
+    change |E / E_prev - 1| from the unit one value earlier on that axis with every other
+    setting the same (None for the first value); also the orbital energies, the iterations and
+    whether the iteration converged.  Rates are fitted in size per series as for the levels."""
+    with_core = [(u, rec) for u, rec in done if "scf" in rec]
+    if not with_core:
+        return None
+    axes = [k for k, _ in plan.axes]
+    position = {k: {json.dumps(v, sort_keys=True): i for i, v in enumerate(vals)} for k, vals in plan.axes}
+    by_settings = {json.dumps(u.settings, sort_keys=True): rec for u, rec in with_core}
+    largest = {}
+    for u, rec in with_core:
+        gk = _ion_key(u)
+        if gk not in largest or ((_size(rec), rec["resolved_basis"].get("order") or 0)
+                                 > (_size(largest[gk][1]), largest[gk][1]["resolved_basis"].get("order") or 0)):
+            largest[gk] = (u, rec)
+    rows = []
+    for u, rec in with_core:
+        e = rec["scf"]["total_energy_hartree"]
+        ref_u, ref = largest[_ion_key(u)]
+        ref_e = ref["scf"]["total_energy_hartree"]
+        changes = {}
+        for k in axes:  # the unit one step back on this axis, every other setting the same
+            i = position[k][json.dumps(u.settings[k], sort_keys=True)]
+            prev = by_settings.get(json.dumps({**u.settings, k: plan.axes[axes.index(k)][1][i - 1]}, sort_keys=True)) if i else None
+            changes[k] = None if prev is None else abs(e / prev["scf"]["total_energy_hartree"] - 1)
+        rows.append({"settings": u.settings, "ion": u.config["ion"], "basis": u.config["basis"], "size": _size(rec),
+                     "spurious_roots": rec.get("spurious", 0), "energy_hartree": e, "reference_hartree": ref_e,
+                     "relative_error": abs(e / ref_e - 1), "is_reference": ref_u.key == u.key,
+                     "relative_change": changes, "orbitals": rec["scf"]["orbitals"],
+                     "iterations": rec["scf"]["iterations"], "converged": rec["scf"]["converged"]})
+    keyed = sorted(((_row_series(r), r["size"], i) for i, r in enumerate(rows)))
+    rows = [rows[i] for _, _, i in keyed]
+    by_series: dict[str, list] = {}
+    for (sk, _, _), r in zip(keyed, rows):
+        if not r["is_reference"]:
+            by_series.setdefault(sk, []).append((r["size"], r["relative_error"]))
+    rates = []
+    for sk, pts in by_series.items():
+        fit = fit_rate([p[0] for p in pts], [p[1] for p in pts])
+        if fit:
+            rates.append({"series": json.loads(sk), **fit})
+    return {"quantity": "total energy", "reference": "largest basis of the scan, per ion", "rows": rows, "rates": rates}
 
 
 def _row_series(row: dict) -> str:
@@ -99,11 +153,17 @@ def _row_series(row: dict) -> str:
     return json.dumps({"ion": row["ion"], "basis": basis}, sort_keys=True)
 
 
-def _recommend(plan: Plan, states) -> dict | None:
+def _recommend(plan: Plan, states, core=None) -> dict | None:
     """The smallest basis (fewest functions; then the smaller worst error) meeting the target for every tracked state
-    of every ion of the scan; a unit serving as the reference is no evidence for itself."""
+    of every ion of the scan, and for the core's total energy when there is a core (its iteration converged);
+    a unit serving as the reference is no evidence for itself."""
     verdict: dict[str, dict] = {}
-    for st in states.values():
+    if core is not None:
+        for row in core["rows"]:
+            if not row["converged"]:
+                bk = json.dumps(row["basis"], sort_keys=True)
+                verdict.setdefault(bk, {"basis": row["basis"], "size": row["size"], "ok": True, "worst": 0.0})["ok"] = False
+    for st in (*states.values(), *(() if core is None else (core,))):
         for row in st["rows"]:
             bk = json.dumps(row["basis"], sort_keys=True)
             cand = verdict.setdefault(bk, {"basis": row["basis"], "size": row["size"], "ok": True, "worst": 0.0})

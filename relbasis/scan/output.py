@@ -16,6 +16,8 @@ from ..outputs import atomic_text, atomic_write, read_manifest
 _PICTURE = re.compile(r"^error_[0-9a-z_]+\.png$")
 OUTPUT_KIND = "scan"
 FIXED_OUTPUTS = ("results.jsonl", "summary.json", "convergence.csv")
+CORE_QUANTITY = "total energy"
+"""The name of the core's total energy in the table, convergence.csv and its picture (error_total_energy.png)."""
 
 
 def _looks_like_results(path: Path) -> bool:
@@ -70,6 +72,9 @@ def write_outputs(out: Path, summary: dict, jobs: int = 1, ours=frozenset()) -> 
     ``ours`` (what relbasis wrote there before) is refused, not replaced.  The pictures are drawn
     by ``jobs`` processes, as matplotlib's text and lines take time."""
     pictures = {lab: _picture_name(lab) for lab in summary["states"]}
+    core = summary.get("core")  # a scan of a core: its total energy is one more line of the table and picture
+    if core is not None:
+        pictures[CORE_QUANTITY] = _picture_name(CORE_QUANTITY)
     for name in (*FIXED_OUTPUTS[1:], *pictures.values()):
         p = out / name
         if (p.exists() or p.is_symlink()) and name not in ours:
@@ -82,6 +87,13 @@ def write_outputs(out: Path, summary: dict, jobs: int = 1, ours=frozenset()) -> 
             lines.append({"state": lab, **{k: v for k, v in r["settings"].items()}, "size": r["size"],
                           "energy_hartree": r["energy_hartree"], "reference_hartree": r["reference_hartree"],
                           "relative_error": r["relative_error"], "is_reference": r["is_reference"]})
+    if core is not None:
+        for r in core["rows"]:
+            lines.append({"state": CORE_QUANTITY, **{k: v for k, v in r["settings"].items()}, "size": r["size"],
+                          "energy_hartree": r["energy_hartree"], "reference_hartree": r["reference_hartree"],
+                          "relative_error": r["relative_error"], "is_reference": r["is_reference"],
+                          **{f"relative_change_in_{k}": v for k, v in r["relative_change"].items()},
+                          "iterations": r["iterations"], "converged": r["converged"]})
     fields = []
     for line in lines:
         for k in line:
@@ -97,8 +109,9 @@ def write_outputs(out: Path, summary: dict, jobs: int = 1, ours=frozenset()) -> 
     atomic_write(out / "convergence.csv", write_csv, "write the convergence table")
     from joblib import Parallel, delayed
 
+    drawn = {**summary["states"], **({} if core is None else {CORE_QUANTITY: core})}
     Parallel(n_jobs=jobs)(delayed(_picture)(lab, st, summary["target"], out / pictures[lab])
-                          for lab, st in summary["states"].items())
+                          for lab, st in drawn.items())
     return {"summary.json", "convergence.csv", *pictures.values()}
 
 
@@ -125,6 +138,9 @@ def summary_table(summary: dict) -> str:
         for rate in st["rates"]:
             where = ", ".join(f"{k}={v}" for k, v in sorted({**rate["series"]["ion"], **rate["series"]["basis"]}.items()))
             lines.append(f"  rate ({where}): {rate['text']} ({rate['points']} points)")
+    core = summary.get("core")
+    if core is not None:
+        lines.extend(_core_table(core))
     rec = summary["recommended"]
     lines.append("")
     if rec is None:
@@ -132,3 +148,23 @@ def summary_table(summary: dict) -> str:
     else:
         lines.append(f"recommended: {json.dumps(rec['basis'], sort_keys=True)} (worst error {rec['worst_relative_error']:.2e})")
     return "\n".join(lines)
+
+
+def _core_table(core: dict) -> list[str]:
+    """The core's total energy per unit: relative error against the largest basis, the relative
+    change from the previous value of each axis, iterations (flagged when not converged)."""
+    axes = list(core["rows"][0]["relative_change"]) if core["rows"] else []
+    head = "".join(f" {'change in ' + k.split('.', 1)[1]:>16}" for k in axes)
+    lines = ["", f"{CORE_QUANTITY} of the core",
+             f"  {'settings':<48} {'size':>5} {'energy (hartree)':>22} {'rel. error':>10}{head} {'iterations':>10}"]
+    for r in core["rows"]:
+        settings = ", ".join(f"{k.split('.', 1)[1]}={v}" for k, v in r["settings"].items())
+        err = "reference" if r["is_reference"] else f"{r['relative_error']:.2e}"
+        changes = "".join(f" {'-' if r['relative_change'][k] is None else format(r['relative_change'][k], '.2e'):>16}"
+                          for k in axes)
+        its = f"{r['iterations']}" + ("" if r["converged"] else " NOT CONVERGED")
+        lines.append(f"  {settings:<48} {r['size']:>5} {r['energy_hartree']:>22.15g} {err:>10}{changes} {its:>10}")
+    for rate in core["rates"]:
+        where = ", ".join(f"{k}={v}" for k, v in sorted({**rate["series"]["ion"], **rate["series"]["basis"]}.items()))
+        lines.append(f"  rate ({where}): {rate['text']} ({rate['points']} points)")
+    return lines

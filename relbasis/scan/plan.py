@@ -18,6 +18,7 @@ from pathlib import Path
 from ..version import __version__
 from ..vocabulary import orbital_l, parse_label as _parse_label
 from ..config import KEYS as _KEYS, from_dict, resolve
+from ..electrons import parse_electrons
 from ..validate import suggest as _suggest
 from ..errors import ConfigError, InputError
 from ..outputs import read_input
@@ -104,10 +105,12 @@ def plan_from_dict(data: dict, allow_large: bool = False) -> Plan:
             raise ConfigError(f"unknown plan section [{key}]{_suggest(key, ('base', 'axes', 'track'))}; valid: [base], [axes], [track]")
     base = data.get("base", {})
     if not isinstance(base, dict):
-        raise ConfigError("[base] must hold [base.ion], [base.basis] and/or [base.solve]")
-    for sec in base:  # not [base.electrons]: a scan solves the bare nucleus (the mean field is not scanned)
-        if sec not in ("ion", "basis", "solve"):
-            raise ConfigError(f"unknown section [base.{sec}]{_suggest(sec, ('ion', 'basis', 'solve'))}; valid: ion, basis, solve")
+        raise ConfigError("[base] must hold [base.ion], [base.basis], [base.solve] and/or [base.electrons]")
+    for sec in base:
+        if sec not in BASE_SECTIONS:
+            raise ConfigError(f"unknown section [base.{sec}]{_suggest(sec, BASE_SECTIONS)}; valid: {', '.join(BASE_SECTIONS)}")
+    if "electrons" in base:
+        _check_electrons(base)
     axes_raw = data.get("axes")
     if not isinstance(axes_raw, dict) or not axes_raw:
         raise ConfigError("[axes] is missing or empty: give at least one axis, e.g. \"basis.size\" = [40, 60, 80]")
@@ -153,12 +156,38 @@ def plan_from_dict(data: dict, allow_large: bool = False) -> Plan:
         raise ConfigError(f"track.reference = {reference!r}: valid are {', '.join(REFERENCES)}")
     plan = Plan(base, tuple(axes), states, max_n, float(target), reference)
     check_units(plan, allow_large)
+    if reference == "exact" and "electrons" in base:
+        raise ConfigError("track.reference = 'exact' needs the bare nucleus: with [base.electrons] the levels are those "
+                          "of the mean field; use reference = 'largest' or 'auto'")
     if reference == "exact":
         for unit in units(plan):
             ion = unit.config["ion"]
             if ion.get("nucleus") != "point":
                 raise ConfigError("track.reference = 'exact' needs nucleus = 'point' in every unit of the scan")
     return plan
+
+
+BASE_SECTIONS = ("ion", "basis", "solve", "electrons")
+"""The sections of a plan's [base]: [base.electrons] (a core, docs/dhf.md) goes into every unit."""
+
+
+def _plan_key(text: str) -> str:
+    """An [electrons] message with its keys named as plan keys: electrons.core -> base.electrons.core."""
+    return re.sub(r"(?<![\w.])(\[?)electrons([.\]])", r"\1base.electrons\2", text)
+
+
+def _check_electrons(base: dict) -> None:
+    """[base.electrons] through relbasis.electrons before any unit is made: its syntax, and its
+    electron count against Z when Z is fixed by [base.ion] (a scanned Z is checked unit by unit,
+    :func:`check_units`)."""
+    ion = base.get("ion", {})
+    Z = ion.get("Z") if isinstance(ion, dict) else None
+    if isinstance(Z, bool) or not isinstance(Z, numbers.Real) or not math.isfinite(Z):
+        Z = math.inf  # a bad or missing Z is [base.ion]'s problem, reported by check_units
+    try:
+        parse_electrons(base["electrons"], Z)
+    except InputError as err:
+        raise ConfigError(_plan_key(str(err))) from None
 
 
 def check_units(plan: Plan, allow_large: bool = False) -> None:
@@ -183,7 +212,7 @@ def check_units(plan: Plan, allow_large: bool = False) -> None:
 def _unit_problem(unit: Unit, err: InputError, i: int, total: int) -> str:
     """The one-line message of a bad unit: the axis the problem names (else all of the unit's
     settings), its value, which unit, and the problem."""
-    text = str(err)
+    text = _plan_key(str(err)) if "electrons" in unit.config else str(err)
     named = [k for k in unit.settings if re.search(rf"(?<![\w.]){re.escape(k)}(?![\w])", text)]
     if named:
         key = named[0]
@@ -214,8 +243,19 @@ def unit_key(config: dict) -> str:
     return hashlib.sha256(text.encode()).hexdigest()[:24]
 
 
+def _canonical_electrons(data, Z) -> dict:
+    """The core in its canonical spelling (relbasis.electrons: order n, l, j; shorthands
+    expanded), so that one core written two ways is one unit; as given if it does not parse
+    with this unit's Z (check_units then names the problem)."""
+    try:
+        return parse_electrons(data, Z).to_dict()
+    except (InputError, TypeError):
+        return dict(data) if isinstance(data, dict) else data
+
+
 def units(plan: Plan) -> list[Unit]:
-    """The product of the axes, each merged into the base config."""
+    """The product of the axes, each merged into the base config ([base.electrons] too: it is
+    part of the unit's config, hence of its key, so a changed core is a new unit)."""
     keys = [k for k, _ in plan.axes]
     out = []
     for combo in itertools.product(*(v for _, v in plan.axes)):
@@ -226,5 +266,7 @@ def units(plan: Plan) -> list[Unit]:
             sec, name = key.split(".")
             cfg[sec][name] = value
         cfg["solve"] = {"kappas": list(plan.kappas())}
+        if "electrons" in plan.base:
+            cfg["electrons"] = _canonical_electrons(plan.base["electrons"], cfg["ion"].get("Z"))
         out.append(Unit(cfg, dict(zip(keys, combo)), unit_key(cfg)))
     return out

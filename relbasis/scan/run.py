@@ -33,9 +33,21 @@ def run_unit(config: dict) -> dict:
         for e, n, lab in zip(spec.energies, spec.n, spec.labels):
             if lab is not None:
                 levels[lab] = float(e)
-    return {"key": unit_key(config), "config": config, "levels": levels, "spurious": spurious,
-            "nucleus": sol.nucleus.model, "Z": float(sol.nucleus.Z),
-            "resolved_basis": sol.config.to_dict()["basis"], "seconds": time.perf_counter() - t0}
+    record = {"key": unit_key(config), "config": config, "levels": levels, "spurious": spurious,
+              "nucleus": sol.nucleus.model, "Z": float(sol.nucleus.Z),
+              "resolved_basis": sol.config.to_dict()["basis"]}
+    if sol.scf is not None:  # only with a core: bare-nucleus records keep their layout (and their keys)
+        record["scf"] = scf_record(sol.scf)
+    record["seconds"] = time.perf_counter() - t0
+    return record
+
+
+def scf_record(mean_field) -> dict:
+    """The figures of a unit's mean field kept in the store: the core's total energy, its
+    orbital energies {label: hartree} and how the iteration ended."""
+    return {"total_energy_hartree": float(mean_field.total_energy),
+            "orbitals": {k: float(v) for k, v in mean_field.orbitals.items()},
+            "iterations": int(mean_field.iterations), "converged": bool(mean_field.converged)}
 
 
 @dataclass(frozen=True)
