@@ -276,6 +276,9 @@ def _cmd_export(args) -> int:
     total = sum(len(sol[k]) for k in sol.kappas)
     print(f"wrote {path}: {total} roots in {len(sol.kappas)} symmetries" + (f", blocks {', '.join(blocks)}" if blocks else ""))
     print(f"ion: {ion_line(sol.nucleus)}")
+    if sol.scf is not None:  # the file's layout version 2: the roots are those of the frozen core
+        print(f"core: {sol.config.electrons.to_dict()['core']} ({sol.scf.electron_count} electrons, "
+              f"{sol.scf.converged_text}), stored in the group 'core' (layout version 2)")
     return 0
 
 

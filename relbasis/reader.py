@@ -1,6 +1,7 @@
 """Read back a basis file written by :mod:`relbasis.writer` (HDF5, or .npz + JSON): ``relbasis.load``.
 
-The layout is documented in docs/file-format.md ("relbasis-basis", layout version 1).  The reader
+The layout is documented in docs/file-format.md ("relbasis-basis", layout versions 1 and 2: 2 is a
+file with a Dirac–Hartree–Fock core, the group "core").  The reader
 checks the format name and layout version and turns every problem into a one-line InputError; it
 reads plain datasets and attributes only (no pickled objects, nothing executed).
 """
@@ -12,7 +13,7 @@ import os
 import struct
 import zipfile
 import zlib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import h5py
@@ -20,7 +21,7 @@ import numpy as np
 
 from . import constants
 from .errors import InputError, MissingLevelError
-from .layout import FORMAT, LAYOUT_VERSION
+from .layout import CORE_GROUP, CORE_LAYOUT_VERSION, FORMAT, LAYOUT_VERSION, READABLE_VERSIONS
 
 
 # The reader trusts nothing in the file.  Each check below says what is wrong in a short phrase
@@ -69,6 +70,7 @@ class KappaBlock:
     Q: np.ndarray = field(repr=False)
     _basis: object = field(repr=False, default=None)
     error_estimate: np.ndarray | None = field(repr=False, default=None)  # relative; NaN where none (absent in older files)
+    occupied: np.ndarray | None = field(repr=False, default=None)  # bool per root: a core orbital (files with a core)
 
     def radial(self, r) -> tuple[np.ndarray, np.ndarray]:
         """P and Q of every root at radii r: two arrays of shape (len(r), number of roots).
@@ -81,6 +83,52 @@ class KappaBlock:
 
 
 @dataclass(frozen=True)
+class Core:
+    """The Dirac–Hartree–Fock core a file of layout version 2 records (the group "core").
+
+    Per subshell a, in the order of the config: ``labels``, ``n``, ``kappa``, ``occupancy``
+    (2j_a + 1), ``energies`` (binding, hartree), ``roots`` (its root in ``kappa_K``, None where
+    that kappa was not exported); ``P``, ``Q`` (bohr^-1/2, radii of ``grid`` x subshells) and
+    ``direct_potential`` J(r) (hartree) on the file's grid; the core's binding energy
+    ``total_energy`` = ``one_body`` + ``direct`` + ``exchange``; ``iterations``, ``converged``;
+    ``electrons`` the [electrons] strings; ``exchange_rule`` the exchange in words.
+    """
+
+    labels: tuple[str, ...]
+    n: tuple[int, ...]
+    kappa: tuple[int, ...]
+    occupancy: np.ndarray
+    energies: np.ndarray
+    roots: tuple[int | None, ...]
+    P: np.ndarray = field(repr=False)
+    Q: np.ndarray = field(repr=False)
+    direct_potential: np.ndarray = field(repr=False)
+    total_energy: float = float("nan")
+    one_body: float = float("nan")
+    direct: float = float("nan")
+    exchange: float = float("nan")
+    iterations: int = 0
+    converged: bool = False
+    electrons: dict = field(default_factory=dict)
+    exchange_rule: str = ""
+
+    @property
+    def orbitals(self) -> dict[str, float]:
+        """{label: binding energy} (hartree), in the order of the config."""
+        return dict(zip(self.labels, map(float, self.energies)))
+
+    @property
+    def electron_count(self) -> int:
+        return int(self.occupancy.sum())
+
+    def index(self, label: str) -> int:
+        """The column of subshell ``label`` in ``P`` and ``Q``."""
+        if label not in self.labels:
+            raise MissingLevelError(f"label = {label!r} is not a core subshell of the file; stored: {list(self.labels)}")
+        return self.labels.index(label)
+
+
+@dataclass(frozen=True)
 class BasisFile:
     """A basis read back from a file: ``b.kappas``, ``b[kappa]`` -> :class:`KappaBlock`."""
 
@@ -90,6 +138,7 @@ class BasisFile:
     grid: np.ndarray
     blocks: dict[int, KappaBlock] = field(repr=False)
     integrals: dict = field(repr=False, default_factory=dict)
+    core: Core | None = field(repr=False, default=None)  # the mean field (layout version 2), else None
 
     @property
     def kappas(self) -> tuple[int, ...]:
@@ -132,7 +181,8 @@ def load(path) -> BasisFile:
     -------
     BasisFile
         A mapping kappa -> :class:`KappaBlock` (``b[kappa]``, ``for kappa in b``, ``len(b)``,
-        the same meaning as on a Solution), with the file's attributes, config and grid.
+        the same meaning as on a Solution), with the file's attributes, config and grid, and
+        ``core`` (:class:`Core`, layout version 2) or None.
     """
 
     failures = (OSError, KeyError, ValueError, TypeError, EOFError, zipfile.BadZipFile, UnicodeDecodeError,
@@ -394,7 +444,13 @@ def _load_h5(p: Path, head: bytes) -> BasisFile:
                 attrs.update(_h5_attrs(group.attrs, name + "/"))
             integral_names, integral_attrs = src.walk("integrals")
             attrs.update(integral_attrs)
-            return _assemble(layout, attrs, src, kappa_names, integral_names)
+            has_core = CORE_GROUP in f
+            if has_core:
+                group = src.resolve(CORE_GROUP)
+                if not isinstance(group, h5py.Group):
+                    raise _Damaged(f"{CORE_GROUP!r} is a dataset where a group is expected")
+                attrs.update(_h5_attrs(group.attrs, CORE_GROUP + "/"))
+            return _assemble(layout, attrs, src, kappa_names, integral_names, has_core)
         except (OSError, KeyError, RuntimeError, TypeError, ValueError) as err:  # h5py on a damaged object
             raise _Damaged(f"is a damaged HDF5 file ({_describe(err)})") from None
 
@@ -424,7 +480,8 @@ def _load_npz(p: Path, head: bytes) -> BasisFile:
             names = src.names()
             kappa_names = sorted({name.split("/")[0] for name in names if name.startswith("kappa_")})
             integral_names = [name for name in names if name.startswith("integrals/")]
-            return _assemble(layout, attrs, src, kappa_names, integral_names)
+            has_core = any(name.startswith(CORE_GROUP + "/") for name in names)
+            return _assemble(layout, attrs, src, kappa_names, integral_names, has_core)
         except (OSError, EOFError, ValueError, zipfile.BadZipFile, NotImplementedError) as err:
             raise _Damaged(f"is a damaged zip archive ({_describe(err)})") from None
 
@@ -470,6 +527,7 @@ class _Layout:
     c: float
     config: dict
     ion: dict
+    version: int = LAYOUT_VERSION
 
 
 def _is_int(v) -> bool:
@@ -499,14 +557,15 @@ def _layout(attrs: dict) -> _Layout:
     version = attrs.get("layout_version")
     if version is None:
         raise _Damaged("has no 'layout_version' attribute")
+    readable = " and ".join(map(str, READABLE_VERSIONS))
     if not _is_int(version):
         raise _Damaged(f"has layout_version {_show(version)}, which is not an integer "
-                       f"(this relbasis reads version {LAYOUT_VERSION})")
-    if version > LAYOUT_VERSION:
-        raise _Damaged(f"has layout version {version}, written by a newer relbasis; this relbasis reads version "
-                       f"{LAYOUT_VERSION} only: update relbasis to read it")
-    if version != LAYOUT_VERSION:
-        raise _Damaged(f"has layout version {version}; this relbasis reads version {LAYOUT_VERSION} only")
+                       f"(this relbasis reads versions {readable})")
+    if version > max(READABLE_VERSIONS):
+        raise _Damaged(f"has layout version {version}, written by a newer relbasis; this relbasis reads versions "
+                       f"{readable} only: update relbasis to read it")
+    if version not in READABLE_VERSIONS:
+        raise _Damaged(f"has layout version {version}; this relbasis reads versions {readable} only")
     family = _choice(attrs, "family", tuple(REGISTRY))
     balance = _choice(attrs, "balance", BALANCES_OF[family])
     wall, order = family_of(family).read_layout(attrs, _READING)
@@ -514,7 +573,7 @@ def _layout(attrs: dict) -> _Layout:
         if key in attrs and not (_finite_real(attrs[key]) and attrs[key] > 0):
             raise _Damaged(f"has {key} = {_show(attrs[key])}: expected a finite positive speed of light (atomic units)")
     return _Layout(family, balance, wall, order, used_c(attrs), _json_object(attrs, "config_json"),
-                   _json_object(attrs, "ion_json"))
+                   _json_object(attrs, "ion_json"), version)
 
 
 def _choice(attrs: dict, key: str, valid) -> str:
@@ -611,7 +670,7 @@ def _same_kappas(config: dict, kappas: list[int]) -> None:
                            f"parts of two exports?")
 
 
-def _assemble(layout: _Layout, attrs: dict, src, kappa_names, integral_names) -> BasisFile:
+def _assemble(layout: _Layout, attrs: dict, src, kappa_names, integral_names, has_core: bool = False) -> BasisFile:
     kappas = _kappas(kappa_names)
     _same_kappas(layout.config, kappas)
     grid = _finite("grid/r", _get(src, "grid/r", "f", (None,), "(radii,)"))
@@ -627,7 +686,17 @@ def _assemble(layout: _Layout, attrs: dict, src, kappa_names, integral_names) ->
     rebuild = family_of(layout.family).read_set(_Reading(src), attrs, layout, grid)
     blocks = {kappa: _block(src, kappa, rebuild(kappa, f"kappa_{kappa}"), grid) for kappa in kappas}
     ints = _integrals(src, attrs, blocks, integral_names)
-    return BasisFile(attrs, layout.config, layout.ion, grid, blocks, ints)
+    core = None
+    if layout.version == CORE_LAYOUT_VERSION:
+        if not has_core:
+            raise _Damaged(f"has layout version {CORE_LAYOUT_VERSION}, which marks a file with a core, but no group "
+                           f"{CORE_GROUP!r}")
+        core, occupied = _core(src, attrs, grid, blocks)
+        blocks = {k: replace(b, occupied=occupied[k]) for k, b in blocks.items()}
+    elif has_core:
+        raise _Damaged(f"has a group {CORE_GROUP!r} but layout version {layout.version} (a file with a core is "
+                       f"version {CORE_LAYOUT_VERSION})")
+    return BasisFile(attrs, layout.config, layout.ion, grid, blocks, ints, core)
 
 
 class _Reading:
@@ -720,6 +789,90 @@ def _agree(g: str, basis, grid: np.ndarray, coefficients: np.ndarray, P: np.ndar
                 raise _Damaged(f"entry '{g}/{name}' at r = {grid[rows[i]]:g}, root {cols[j]} differs from the basis "
                                f"rebuilt from the file times '{g}/coefficients': one of them, the knots or exponents, or "
                                f"c_used is damaged")
+
+
+_CORE_ENERGY_TOLERANCE = 1e-10
+"""total_energy = one_body + direct + exchange as the writer adds them: equal to rounding."""
+
+
+def _core(src, attrs: dict, grid: np.ndarray, blocks: dict) -> tuple[Core, dict]:
+    """The group "core" (layout version 2), checked, and per kappa the occupied roots (bool).
+
+    Each subshell is a full one (2|kappa| electrons, n > l); its root index points at an occupied
+    root of kappa_K with the same n (or is -1 where kappa_K was not exported); each kappa_K has as
+    many occupied roots as the core has subshells of that kappa; the energy parts add up."""
+    g = CORE_GROUP
+    labels = _get(src, f"{g}/labels", "s", (None,), "(subshells,)")
+    C = labels.size
+    if C == 0:
+        raise _Damaged(f"entry '{g}/labels' is empty: a core has at least one subshell")
+    each = f"(subshells,) like {g}/labels"
+    kappa = _get(src, f"{g}/kappa", "i", (C,), each)
+    _first(f"{g}/kappa", (kappa == 0) | (np.abs(kappa) > _MAX_KAPPA), "holds kappa 0 or |kappa| > 10000",
+           "expected a non-zero integer")
+    n = _get(src, f"{g}/n", "i", (C,), each)
+    l = np.where(kappa > 0, kappa, -kappa - 1)
+    _first(f"{g}/n", n <= l, "holds n <= l", "expected n > l of the subshell's kappa")
+    occupancy = _get(src, f"{g}/occupancy", "i", (C,), each)
+    _first(f"{g}/occupancy", occupancy != 2 * np.abs(kappa), "is not 2|kappa|",
+           "expected full subshells (2j + 1 = 2|kappa| electrons)")
+    energies = _finite(f"{g}/energies", _get(src, f"{g}/energies", "f", (C,), each))
+    root = _get(src, f"{g}/root", "i", (C,), each)
+    pq = f"(radii of grid/r, subshells of {g}/labels)"
+    P = _finite(f"{g}/P", _get(src, f"{g}/P", "f", (grid.size, C), pq))
+    Q = _finite(f"{g}/Q", _get(src, f"{g}/Q", "f", (grid.size, C), pq))
+    J = _finite(f"{g}/direct_potential", _get(src, f"{g}/direct_potential", "f", grid.shape, "(radii of grid/r,)"))
+    occupied = {}
+    for k, b in blocks.items():
+        name = f"kappa_{k}/occupied"
+        flags = _get(src, name, "i", b.energies.shape, f"(roots,) like kappa_{k}/energies")
+        _first(name, (flags != 0) & (flags != 1), "holds a value other than 0 or 1", "expected 1 for a core root, else 0")
+        want = int(np.count_nonzero(kappa == k))
+        if int(flags.sum()) != want:
+            raise _Damaged(f"entry {name!r} marks {int(flags.sum())} roots occupied; {g}/kappa holds {want} "
+                           f"subshells of kappa {k}")
+        occupied[k] = flags.astype(bool)
+    for i in range(C):
+        k, r_i = int(kappa[i]), int(root[i])
+        b = blocks.get(k)
+        ok = r_i == -1 if b is None else (0 <= r_i < b.energies.size and occupied[k][r_i] and b.n[r_i] == int(n[i]))
+        if not ok:
+            fix = (f"expected -1 (kappa {k} was not exported)" if b is None else
+                   f"expected the index of the occupied root of kappa_{k} with n = {int(n[i])}")
+            raise _Damaged(f"entry '{g}/root' holds {r_i} at index {i}: {fix}")
+    numbers = {}
+    for key in ("total_energy", "one_body", "direct", "exchange"):
+        value = attrs.get(f"{g}/{key}")
+        if not _finite_real(value):
+            raise _Damaged(f"has {g}/{key} = {_show(value)}: expected a finite number (hartree)")
+        numbers[key] = float(value)
+    parts = numbers["one_body"] + numbers["direct"] + numbers["exchange"]
+    if not abs(parts - numbers["total_energy"]) <= _CORE_ENERGY_TOLERANCE * abs(numbers["total_energy"]):
+        raise _Damaged(f"has {g}/total_energy = {numbers['total_energy']!r}, but one_body + direct + exchange = "
+                       f"{parts!r}: one of them is damaged")
+    iterations = attrs.get(f"{g}/iterations")
+    if not (_is_int(iterations) and iterations >= 1):
+        raise _Damaged(f"has {g}/iterations = {_show(iterations)}: expected an integer >= 1")
+    converged = attrs.get(f"{g}/converged")
+    if not isinstance(converged, bool):
+        raise _Damaged(f"has {g}/converged = {_show(converged)}: expected true or false")
+    texts = {}
+    for key in ("electrons_core", "electrons_valence", "exchange_rule"):
+        value = attrs.get(f"{g}/{key}")
+        if not isinstance(value, str):
+            raise _Damaged(f"has {g}/{key} = {_show(value)}: expected text")
+        texts[key] = value
+    count = attrs.get(f"{g}/electron_count")
+    if count is not None and count != int(occupancy.sum()):
+        raise _Damaged(f"has {g}/electron_count = {_show(count)}, but {g}/occupancy adds up to {int(occupancy.sum())}")
+    electrons = {"core": texts["electrons_core"]}
+    if texts["electrons_valence"]:
+        electrons["valence"] = texts["electrons_valence"]
+    core = Core(tuple(str(x) for x in labels), tuple(int(x) for x in n), tuple(int(x) for x in kappa),
+                occupancy.astype(np.int64), energies, tuple(None if int(x) < 0 else int(x) for x in root), P, Q, J,
+                iterations=int(iterations), converged=converged, electrons=electrons,
+                exchange_rule=texts["exchange_rule"], **numbers)
+    return core, occupied
 
 
 def _integrals(src, attrs: dict, blocks: dict, names) -> dict:

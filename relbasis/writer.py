@@ -1,6 +1,7 @@
 """Export a solved basis for a many-body code (HDF5, or .npz + JSON): ``relbasis.export``.
 
-The layout is ours and documented in docs/file-format.md ("relbasis-basis", layout version 1).
+The layout is ours and documented in docs/file-format.md ("relbasis-basis", layout version 1; a
+solution with a Dirac–Hartree–Fock core adds the group "core" and is written as version 2).
 Files are written under a unique temporary name in the target directory and renamed into place
 (:mod:`relbasis.outputs`); an existing file is replaced only with ``force`` and only if relbasis
 wrote it (its ``format`` attribute says so); modes follow the umask.  The file is read back by
@@ -20,7 +21,7 @@ from tqdm import tqdm
 from . import constants
 from .version import __version__
 from .errors import InputError, option
-from .layout import BLOCKS, FORMAT, LAYOUT_VERSION
+from .layout import BLOCKS, CORE_GROUP, CORE_LAYOUT_VERSION, FORMAT, LAYOUT_VERSION
 from .outputs import atomic_group, atomic_write, checked_path
 from .validate import items
 from .reader import _plain
@@ -119,6 +120,11 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=(), bar=None) -> dict:
         top.update({f"{g}/{k}": v for k, v in attrs.items()})
         arrays.update({f"{g}/{k}": v for k, v in data.items()})
         tick()
+    if sol.scf is not None:
+        top["layout_version"] = CORE_LAYOUT_VERSION
+        core_attrs, core_arrays = _core(sol, out_grid)
+        top.update(core_attrs)
+        arrays.update(core_arrays)
     if "dipole" in blocks:  # every E1-connected pair once, rows: roots of ka, columns: roots of kb
         for ka in sol.kappas:
             for kb in sol.kappas:
@@ -141,6 +147,52 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=(), bar=None) -> dict:
         arrays["integrals/slater/which"] = np.array(rows, dtype=object)
         arrays["integrals/slater/value"] = np.array(values)
     return {"attrs": top, "arrays": arrays}
+
+
+EXCHANGE_RULE = ("(K u)(r) = sum_a sum_k Lambda(kappa, kappa_a, k) Y^k[P_a P + Q_a Q](r) / r (P_a, Q_a)(r), "
+                 "Lambda = <kappa||C^k||kappa_a>^2 / (2j + 1), k with l + k + l_a even and "
+                 "|j - j_a| <= k <= j + j_a, a over the core subshells (each full, 2j_a + 1 electrons)")
+"""The exchange of the frozen core in words a reader can rebuild it from (relbasis.scf; the
+group attribute ``core/exchange_rule``, docs/file-format.md)."""
+
+
+def _core(sol, r: np.ndarray) -> tuple[dict, dict]:
+    """The group "core" of a solution with a mean field: the subshells, energies, the orbitals and
+    the direct potential J(r) on the file's grid, and per exported kappa the occupied roots.
+
+    The orbitals are those of the mean field's own bases (``MeanField.orbital_values``), which are
+    the occupied roots of the frozen-core Hamiltonian; a root of kappa_K is occupied when (K, n)
+    is a core subshell, the rule of ``Solution.states``.
+    """
+    mf = sol.scf
+    core = mf.core
+    P, Q = mf.orbital_values(r)
+    electrons = sol.config.electrons.to_dict()
+    g = CORE_GROUP
+    attrs = {f"{g}/{k}": v for k, v in {
+        "total_energy": float(mf.total_energy), "one_body": float(mf.one_body), "direct": float(mf.direct),
+        "exchange": float(mf.exchange), "iterations": int(mf.iterations), "converged": bool(mf.converged),
+        "electrons_core": electrons["core"], "electrons_valence": electrons.get("valence", ""),
+        "electron_count": int(mf.electron_count), "exchange_rule": EXCHANGE_RULE,
+    }.items()}
+    roots = []
+    for o in core:
+        spec = sol.spectra.get(o.kappa)
+        roots.append(spec.n.index(o.n) if spec is not None and o.n in spec.n else -1)
+    arrays = {
+        f"{g}/labels": np.array([o.label for o in core], dtype=object),
+        f"{g}/n": np.array([o.n for o in core], dtype=np.int64),
+        f"{g}/kappa": np.array([o.kappa for o in core], dtype=np.int64),
+        f"{g}/occupancy": np.array([o.occupancy for o in core], dtype=np.int64),
+        f"{g}/energies": np.array([o.energy for o in core], dtype=float),
+        f"{g}/root": np.array(roots, dtype=np.int64),
+        f"{g}/P": np.asarray(P, dtype=float), f"{g}/Q": np.asarray(Q, dtype=float),
+        f"{g}/direct_potential": np.asarray(mf.direct_potential(r), dtype=float),
+    }
+    held = {(o.kappa, o.n) for o in core}
+    for kappa in sol.kappas:
+        arrays[f"kappa_{kappa}/occupied"] = np.array([int((kappa, n) in held) for n in sol[kappa].n], dtype=np.int64)
+    return attrs, arrays
 
 
 def _orbital(sol, label: str) -> tuple[int, int]:
@@ -189,7 +241,9 @@ def export(sol, path, *, force: bool = False, grid=None, blocks=(), slater=(), a
     ``slater``: (k, (a, b, c, d)) with state labels, each stored as R^k(ab, cd).  An export whose
     estimated size or time exceeds the limits of :mod:`relbasis.budget` is refused unless
     ``allow_large``.  ``progress``: a bar on stderr (None: when the export is estimated to take
-    more than a couple of seconds and stderr is a terminal).
+    more than a couple of seconds and stderr is a terminal).  A solution with a Dirac–Hartree–Fock
+    core (``sol.scf``) adds the group "core" (subshells, energies, orbitals and J(r) on the file's
+    grid, the energy parts) and ``kappa_K/occupied``, and is written as layout version 2.
 
     Parameters
     ----------

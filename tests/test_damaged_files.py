@@ -349,7 +349,9 @@ CASES = {
     "h5-flipped-knot": (_flip("basis/knots", _middle), "basis/knots"),
     # root attributes
     "h5-wrong-format": (_edit_h5(_set_attr("format", "someone-elses-basis")), "someone-elses-basis"),
-    "h5-future-version": (_edit_h5(_set_attr("layout_version", 2)), "newer"),
+    "h5-future-version": (_edit_h5(_set_attr("layout_version", 3)), "newer"),
+    # version 2 is a file with a core (tests/test_export_core.py): without the group it is damaged
+    "h5-version-2-without-core": (_edit_h5(_set_attr("layout_version", 2)), "marks a file with a core"),
     "h5-version-string": (_edit_h5(_set_attr("layout_version", "1")), "not an integer"),
     "h5-no-version": (_edit_h5(_del_attr("layout_version")), "layout_version"),
     "h5-unknown-family": (_edit_h5(_set_attr("family", "wavelet")), "wavelet"),
