@@ -368,25 +368,23 @@ def run(config, nucleus, c: float, *, guess: str = "thomas-fermi", energy_tolera
     finally:
         if bar is not None:
             bar.close()
-    # the frozen-core Hamiltonian is the last Fock matrix: its roots are the orbital energies
+    # The frozen potential is the one built from the orbitals of the last iteration (their
+    # coefficients are kept: J, K, the exported orbitals and <r> all come from them); the
+    # frozen-core Hamiltonian is the Fock matrix they built, and its roots are the orbital
+    # energies.  The two sets of orbitals agree to the convergence of the iteration.
+    builders = {(s.kappa, shell.n): s.vectors[:, idx].copy() for s in syms for shell, idx in zip(s.shells, s.occupied)}
     for s, G in zip(syms, field_in):
         _diagonalise(s, s.h + G, c, r, w, V_local)
-    Pg, Qg = _grid_orbitals(syms)
-    # the potential reported and frozen is the one built from the orbitals of the last iteration;
-    # recompute it from the orbitals just found only for the figures of the table (<r>, <r^2>)
-    orbitals, cols = [], {}
-    for s in syms:
-        for shell, idx in zip(s.shells, s.occupied):
-            cols[(s.kappa, shell.n)] = (s, idx)
-    Pk, Qk = [], []
+    energies = {(s.kappa, shell.n): float(s.energies[idx]) for s in syms for shell, idx in zip(s.shells, s.occupied)}
+    dense = {s.kappa: s for s in syms}
+    orbitals = []
     for shell in electrons.core:
-        s, idx = cols[(shell.kappa, shell.n)]
-        coef = s.vectors[:, idx]
+        coef = builders[(shell.kappa, shell.n)]
+        s = dense[shell.kappa]
         Pv, Qv = s.P @ coef, s.Q @ coef
         dens = w * (Pv * Pv + Qv * Qv)
-        orbitals.append(Orbital(shell.label, shell.n, shell.kappa, shell.occupancy, float(s.energies[idx]), coef,
-                                float(dens @ r), float(dens @ (r * r))))
-    # the orbitals that built the frozen potential (previous diagonalisation) define J and K
+        orbitals.append(Orbital(shell.label, shell.n, shell.kappa, shell.occupancy, energies[(shell.kappa, shell.n)],
+                                coef, float(dens @ r), float(dens @ (r * r))))
     return MeanField(electrons, tuple(orbitals), energy, *map(float, parts), len(history), converged,
                      time.perf_counter() - t0, tuple(history), r, w, nq, *_builders(occupied, electrons, syms),
                      J, {s.kappa: s.basis for s in syms}, guess)
