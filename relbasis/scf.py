@@ -24,10 +24,10 @@ diagonalised with the overlap; the occupied orbitals of a symmetry are its lowes
 positive-energy branch (eps > -c^2 for binding energies), by count, skipping a root whose
 kinetic balance fails (a spurious root of an unbalanced basis).  The iteration starts from a
 screened Thomas–Fermi potential (or the bare nucleus), and is accelerated by Pulay's DIIS
-(P. Pulay, Chem. Phys. Lett. 73, 393 (1980)) on the orbital gradient, the occupied–virtual block
-<v|F_out - F_in|a> of the Fock matrix built from the orbitals of F_in, with damping in the first
+(P. Pulay, Chem. Phys. Lett. 73, 393 (1980)) on the first-order orbital change that the
+occupied–virtual block <v|F_out - F_in|a> asks for (:func:`_orbital_step`), with damping in the first
 iterations.  Converged when the total energy changes by less than ``energy_tolerance`` (relative)
-and the gradient is below ``gradient_tolerance`` (hartree).
+and no orbital would change by more than ``orbital_tolerance`` (:func:`_orbital_step`).
 
 The total energy (binding: the electrons' rest mass excluded) is
 
@@ -51,10 +51,10 @@ from .errors import InputError
 from .families import family_of
 from .solver import final_roots
 from .spectrum import balance_residual
-from .vocabulary import j_twice, orbital_l
+from .vocabulary import j_twice
 
 ENERGY_TOLERANCE = 1e-14
-"""Converged when |E_i - E_(i-1)| < ENERGY_TOLERANCE |E| (and the gradient below its tolerance)."""
+"""Converged when |E_i - E_(i-1)| < ENERGY_TOLERANCE |E| (and every orbital step below ORBITAL_TOLERANCE)."""
 ORBITAL_TOLERANCE = 1e-10
 """Converged when no orbital would change by more than this (the S-norm of the first-order
 change :func:`_orbital_step` that F_out - F_in asks for)."""
@@ -479,7 +479,7 @@ def _occupied_list(syms, Pg, Qg):
 
 def _next_field(field_in, field_out, grad, diis_F, diis_e, it):
     """The mean-field part G = J - K of the next Fock matrix: damped mixing in the first
-    iterations, then Pulay's DIIS on the orbital gradient.  Only G is mixed, never h: the
+    iterations, then Pulay's DIIS on the orbital steps.  Only G is mixed, never h: the
     kinetic and rest-mass entries reach c/r_min and 2c^2, and a combination sum c_i h with
     sum c_i = 1 would leave their rounding, 1e-16 |h|, in F."""
     if it <= DAMPED:
