@@ -41,7 +41,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -282,18 +282,36 @@ class _Symmetry:
     occupied: np.ndarray = None  # indices of the occupied roots
 
 
+class _Unbound(Exception):
+    """An occupied orbital left the bound states (eps >= 0) while starting from Thomas–Fermi."""
+
+
 def run(config, nucleus, c: float, *, guess: str = "thomas-fermi", energy_tolerance: float = ENERGY_TOLERANCE,
         orbital_tolerance: float = ORBITAL_TOLERANCE, max_iterations: int = MAX_ITERATIONS,
         progress: bool | None = None) -> MeanField:
     """The self-consistent core of a resolved config with an ``electrons`` section.
+
+    From the Thomas–Fermi start an occupied orbital may be pushed out of the bound states in
+    the first iterations (the 4f of Yb, whose Thomas–Fermi well is too shallow): it would become
+    a root of the pseudo-continuum, from which the iteration does not recover.  The run then
+    starts again from the bare nucleus, where every orbital is bound, and says so in ``guess``.
 
     Raises :class:`ConvergenceError` (an InputError) with the last figures and advice when the
     iteration does not converge in ``max_iterations``.
     """
     if guess not in GUESSES:
         raise InputError(f"guess = {guess!r}: choose one of {', '.join(GUESSES)}")
-    electrons = config.electrons
     t0 = time.perf_counter()
+    try:
+        return _run(config, nucleus, c, guess, energy_tolerance, orbital_tolerance, max_iterations, progress, t0)
+    except _Unbound as why:
+        mf = _run(config, nucleus, c, "nucleus", energy_tolerance, orbital_tolerance, max_iterations, progress, t0)
+        return replace(mf, guess=f"nucleus ({why})")
+
+
+def _run(config, nucleus, c, guess, energy_tolerance, orbital_tolerance, max_iterations, progress, t0) -> MeanField:
+    """One iteration from one start (see :func:`run`)."""
+    electrons = config.electrons
     fset = family_of(config).build_set(config, nucleus, c)
     nq = fset.panel_points
     nuc = hamiltonian.nucleus_term(nucleus)
@@ -310,12 +328,11 @@ def run(config, nucleus, c: float, *, guess: str = "thomas-fermi", energy_tolera
     r, w = syms[0].sampled.r, syms[0].sampled.w
     Z = float(nucleus.Z)
     N = sum(s.occupancy for s in electrons.core)
+    V_nuc = nucleus.potential(r)
+    field_in = [np.zeros_like(s.h) for s in syms]
     if guess == "thomas-fermi":
         screening = hamiltonian.LocalTerm("guess", thomas_fermi_potential(Z, N))
         field_in = [s.basis.local_matrix(screening, s.sampled) for s in syms]
-    else:
-        field_in = [np.zeros_like(s.h) for s in syms]
-    V_nuc = nucleus.potential(r)
     history: list[Iteration] = []
     diis_F: list[list[np.ndarray]] = []
     diis_e: list[np.ndarray] = []
@@ -328,6 +345,9 @@ def run(config, nucleus, c: float, *, guess: str = "thomas-fermi", energy_tolera
                                if syms[0].vectors is not None else 0.0)
             for s, G in zip(syms, field_in):
                 _diagonalise(s, s.h + G, c, r, w, V_local)
+                if guess == "thomas-fermi" and np.any(s.energies[s.occupied] >= 0):
+                    lost = [sh.label for sh, e in zip(s.shells, s.energies[s.occupied]) if e >= 0]
+                    raise _Unbound(f"from Thomas–Fermi, {', '.join(lost)} left the bound states in iteration {it}")
             Pg, Qg = _grid_orbitals(syms)
             occ = _occupancies(syms)
             J = direct_values(r, w, Pg, Qg, occ, nq)
@@ -364,7 +384,7 @@ def run(config, nucleus, c: float, *, guess: str = "thomas-fermi", energy_tolera
             raise ConvergenceError(
                 f"the mean field of {electrons_text(electrons)} did not converge in {max_iterations} iterations "
                 f"(last change {last.change:.1e} hartree, orbital step {last.step:.1e}); try guess = "
-                f"{'nucleus' if guess == 'thomas-fermi' else 'thomas-fermi'}, a larger basis.r_max, or check the core")
+                f"{'thomas-fermi' if guess.startswith('nucleus') else 'nucleus'}, a larger basis.r_max, or check the core")
     finally:
         if bar is not None:
             bar.close()

@@ -54,6 +54,16 @@ def test_nonrelativistic_limit_matches_the_hartree_fock_limit(Z, core, limit):
     assert sol.scf.total_energy == pytest.approx(limit, rel=1e-8)
 
 
+@pytest.mark.parametrize("Z, core, limit", [
+    (12, "[Ne] 3s2", -199.614636425),  # Bunge, Barrientos, Bunge 1993, from memory
+    (18, "[Ar]", -526.817512803),
+])
+def test_nonrelativistic_limit_of_heavier_closed_shells(Z, core, limit):
+    """c = 1e7 (the relativistic shift falls as c^-2): the published Hartree–Fock limits within
+    1e-6 hartree (Bunge et al. 1993; Froese Fischer 1977; from memory)."""
+    assert mean_field(Z, core, c=1e7, kappas=[-1]).scf.total_energy == pytest.approx(limit, abs=1e-6)
+
+
 def test_core_orbitals_reappear_in_the_frozen_core_spectrum(neon):
     """Identity: every core orbital is a root of its symmetry's frozen-core spectrum, marked occupied."""
     states = neon.states()
