@@ -64,6 +64,9 @@ DIIS_SIZE = 10
 DAMPING = 0.5
 """Share of the previous Fock matrix kept in the first DAMPED iterations (before DIIS takes over)."""
 DAMPED = 2
+DIIS_START = 0.05
+"""DIIS takes over once the orbital step is below this (damped mixing until then, at least
+DAMPED iterations): far from the solution the extrapolation of a collapsing 4f (Yb) diverges."""
 SPURIOUS_RESIDUAL = 0.1
 """A root whose kinetic-balance residual (relbasis.spectrum.balance_residual) exceeds this is not
 taken as an occupied orbital: bound states of a balanced basis show 1e-6..1e-3, spurious roots ~1."""
@@ -378,7 +381,7 @@ def _run(config, nucleus, c, guess, energy_tolerance, orbital_tolerance, max_ite
                 field_in = field_out
                 break
             energy_old = energy
-            field_in = _next_field(field_in, field_out, grad, diis_F, diis_e, it)
+            field_in = _next_field(field_in, field_out, grad, diis_F, diis_e, it, gmax)
         else:
             last = history[-1]
             raise ConvergenceError(
@@ -497,12 +500,12 @@ def _occupied_list(syms, Pg, Qg):
     return [(k, Pg[:, i], Qg[:, i]) for i, k in enumerate(kap)]
 
 
-def _next_field(field_in, field_out, grad, diis_F, diis_e, it):
+def _next_field(field_in, field_out, grad, diis_F, diis_e, it, step=0.0):
     """The mean-field part G = J - K of the next Fock matrix: damped mixing in the first
     iterations, then Pulay's DIIS on the orbital steps.  Only G is mixed, never h: the
     kinetic and rest-mass entries reach c/r_min and 2c^2, and a combination sum c_i h with
     sum c_i = 1 would leave their rounding, 1e-16 |h|, in F."""
-    if it <= DAMPED:
+    if it <= DAMPED or (step > DIIS_START and not diis_F):
         return [DAMPING * a + (1 - DAMPING) * b for a, b in zip(field_in, field_out)]
     new_fock = field_out
     diis_F.append(new_fock)
