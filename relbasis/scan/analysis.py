@@ -77,17 +77,7 @@ def analyse(plan: Plan, everything: list[Unit], records: dict[str, dict]) -> dic
                          "size": _size(rec), "spurious_roots": rec.get("spurious", 0), "energy_hartree": e,
                          "reference_hartree": None if ref is None else ref["energy"], "relative_error": err,
                          "is_reference": ref is not None and ref.get("unit") == u.key})
-        keyed = sorted(((_row_series(r), r["size"], i) for i, r in enumerate(rows)))
-        rows = [rows[i] for _, _, i in keyed]
-        by_series: dict[str, list] = {}
-        for (sk, _, _), r in zip(keyed, rows):
-            if not r["is_reference"]:
-                by_series.setdefault(sk, []).append((r["size"], r["relative_error"]))
-        rates = []
-        for sk, pts in by_series.items():
-            fit = fit_rate([p[0] for p in pts], [p[1] for p in pts])
-            if fit:
-                rates.append({"series": json.loads(sk), **fit})
+        rows, rates = _sorted_with_rates(rows)
         states[lab] = {"rows": rows, "rates": rates}
     summary = {"relbasis": __version__, "plan": plan.to_dict(), "target": plan.target, "units": len(everything),
                "finished": len(done), "references": list(references.values()), "states": states}
@@ -133,17 +123,7 @@ def core_convergence(plan: Plan, done: list) -> dict | None:
                      "relative_error": abs(e / ref_e - 1), "is_reference": ref_u.key == u.key,
                      "relative_change": changes, "orbitals": rec["scf"]["orbitals"],
                      "iterations": rec["scf"]["iterations"], "converged": rec["scf"]["converged"]})
-    keyed = sorted(((_row_series(r), r["size"], i) for i, r in enumerate(rows)))
-    rows = [rows[i] for _, _, i in keyed]
-    by_series: dict[str, list] = {}
-    for (sk, _, _), r in zip(keyed, rows):
-        if not r["is_reference"]:
-            by_series.setdefault(sk, []).append((r["size"], r["relative_error"]))
-    rates = []
-    for sk, pts in by_series.items():
-        fit = fit_rate([p[0] for p in pts], [p[1] for p in pts])
-        if fit:
-            rates.append({"series": json.loads(sk), **fit})
+    rows, rates = _sorted_with_rates(rows)
     return {"quantity": "total energy", "reference": "largest basis of the scan, per ion", "rows": rows, "rates": rates}
 
 
@@ -177,3 +157,20 @@ def _recommend(plan: Plan, states, core=None) -> dict | None:
         return None
     best = min(good, key=lambda c: (c["size"], c["worst"]))
     return {"basis": best["basis"], "size": best["size"], "worst_relative_error": best["worst"]}
+
+
+def _sorted_with_rates(rows: list[dict]) -> tuple[list[dict], list[dict]]:
+    """The rows sorted by series then size, and the convergence rate fitted per series (the
+    reference rows left out): shared by the levels and the core's total energy."""
+    keyed = sorted(((_row_series(r), r["size"], i) for i, r in enumerate(rows)))
+    rows = [rows[i] for _, _, i in keyed]
+    by_series: dict[str, list] = {}
+    for (sk, _, _), r in zip(keyed, rows):
+        if not r["is_reference"]:
+            by_series.setdefault(sk, []).append((r["size"], r["relative_error"]))
+    rates = []
+    for sk, pts in by_series.items():
+        fit = fit_rate([p[0] for p in pts], [p[1] for p in pts])
+        if fit:
+            rates.append({"series": json.loads(sk), **fit})
+    return rows, rates
