@@ -24,7 +24,8 @@ from .solver import Solution, solve  # noqa: E402
 from .writer import export  # noqa: E402
 from .reader import load  # noqa: E402
 from .critical import CriticalCharge, critical_charge  # noqa: E402
+from .perturbation import SecondOrder, second_order  # noqa: E402
 
 __all__ = ["__version__", "solve", "Solution", "Config", "IonSpec", "BasisSpec", "SolveSpec",
            "load_config", "config_from_dict", "InputError", "export", "load",
-           "critical_charge", "CriticalCharge"]
+           "critical_charge", "CriticalCharge", "second_order", "SecondOrder"]

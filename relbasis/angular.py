@@ -1,8 +1,10 @@
 """Angular factors: Wigner 3j symbols and reduced matrix elements of C^k between kappa states.
 
 The 3j symbol follows Racah's closed formula (A. R. Edmonds, *Angular Momentum in Quantum
-Mechanics*, Princeton 1957, eq. 3.7.3, from memory); arguments are given doubled (2j, 2m) so
-that half-integers stay exact integers.  The reduced matrix element of the normalised spherical
+Mechanics*, Princeton 1957, eq. 3.7.3, from memory), the 6j symbol Racah's sum (Edmonds eq.
+6.3.7; D. A. Varshalovich et al., *Quantum Theory of Angular Momentum*, World Scientific 1988,
+sec. 9.2, from memory); arguments are given doubled (2j, 2m) so that half-integers stay exact
+integers.  The reduced matrix element of the normalised spherical
 harmonic C^k between relativistic orbitals is
 
     <kappa_b || C^k || kappa_a> = (-1)^(j_b + 1/2) sqrt((2j_a+1)(2j_b+1)) (j_b k j_a; -1/2 0 1/2)
@@ -14,8 +16,9 @@ momenta are both flipped.
 
 from __future__ import annotations
 
+from fractions import Fraction
 from functools import lru_cache
-from math import factorial, sqrt
+from math import factorial, prod, sqrt
 
 from .vocabulary import j_twice, orbital_l
 
@@ -42,6 +45,41 @@ def wigner_3j_doubled(j1: int, j2: int, j3: int, m1: int, m2: int, m3: int) -> f
         total += (-1) ** (k // 2) / den
     sign = (-1) ** ((j1 - j2 - m3) // 2)
     return sign * pre * total
+
+
+def _triangle(a: int, b: int, c: int) -> Fraction | None:
+    """Delta(abc)^2 = (a+b-c)! (a-b+c)! (-a+b+c)! / (a+b+c+1)! for doubled a, b, c, or None when
+    (a/2, b/2, c/2) do not form a triangle with an integer sum."""
+    if c > a + b or c < abs(a - b) or (a + b + c) % 2:
+        return None
+    return Fraction(factorial((a + b - c) // 2) * factorial((a - b + c) // 2) * factorial((-a + b + c) // 2),
+                    factorial((a + b + c) // 2 + 1))
+
+
+@lru_cache(maxsize=65536)
+def wigner_6j_doubled(j1: int, j2: int, j3: int, j4: int, j5: int, j6: int) -> float:
+    """{j1/2 j2/2 j3/2; j4/2 j5/2 j6/2}, all arguments doubled.
+
+    Racah's formula: Delta(j1 j2 j3) Delta(j1 j5 j6) Delta(j4 j2 j6) Delta(j4 j5 j3) times
+    sum_t (-1)^t (t+1)! / [prod_i (t - a_i)! prod_k (b_k - t)!], with the triad sums
+    a = (j1+j2+j3, j1+j5+j6, j4+j2+j6, j4+j5+j3) and b = (j1+j2+j4+j5, j2+j3+j5+j6, j3+j1+j6+j4)
+    (module docstring).  The sum is exact in rational arithmetic; only the final square root is
+    rounded, so the result is correct to a few ulp for any arguments.
+    """
+    deltas = [_triangle(j1, j2, j3), _triangle(j1, j5, j6), _triangle(j4, j2, j6), _triangle(j4, j5, j3)]
+    if any(d is None for d in deltas):
+        return 0.0
+    a = [(j1 + j2 + j3) // 2, (j1 + j5 + j6) // 2, (j4 + j2 + j6) // 2, (j4 + j5 + j3) // 2]
+    b = [(j1 + j2 + j4 + j5) // 2, (j2 + j3 + j5 + j6) // 2, (j3 + j1 + j6 + j4) // 2]
+    total = Fraction(0)
+    for t in range(max(a), min(b) + 1):
+        den = prod(factorial(t - x) for x in a) * prod(factorial(y - t) for y in b)
+        total += Fraction((-1) ** t * factorial(t + 1), den)
+    if total == 0:
+        return 0.0
+    square = total * total * deltas[0] * deltas[1] * deltas[2] * deltas[3]
+    magnitude = sqrt(float(square))  # float() of a Fraction rounds correctly, however large its parts
+    return magnitude if total > 0 else -magnitude
 
 
 def reduced_c(k: int, kappa_b: int, kappa_a: int) -> float:

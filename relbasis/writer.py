@@ -92,6 +92,9 @@ def _payload(sol, grid: np.ndarray | None, blocks, slater=(), bar=None) -> dict:
         # Added within layout version 1 as well: the names of the parts of the Hamiltonian solved
         "hamiltonian_terms": json.dumps(list(getattr(sol, "terms", ("kinetic", "rest-mass", "nucleus")))),
         "energy_unit": "hartree", "length_unit": "bohr",
+        # Added within layouts 1 and 2 (older files lack it): the quadrature's panels of Gauss–Legendre
+        # points, which a reader needs to integrate on it panel by panel (Y^k functions)
+        "quadrature_panel_points": int(sol.family_set.panel_points),
     }
     r_q, w_q = sol.grid
     out_grid = r_q if grid is None else np.asarray(grid, dtype=float)

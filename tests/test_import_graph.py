@@ -35,7 +35,7 @@ LAYERS: tuple[tuple[str, ...], ...] = (
     # 10 the solver, then what is computed from a solution
     ("solver",),
     ("integrals", "critical", "plots", "reader", "measures", "scf"),
-    ("checks", "writer", "scan"),
+    ("checks", "writer", "scan", "perturbation"),
     ("audit",),
     ("report",),
     # 14 the command line and the package's front door
