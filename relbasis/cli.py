@@ -379,6 +379,83 @@ def _cmd_mean_field(args) -> int:
     return 0
 
 
+# ----------------------------------------------------------------------------- second order
+
+
+_KIND_WORDS = {"pair": "1s^2 pair of the bare nucleus (1/Z expansion)",
+               "core": "correlation of the closed core (Dirac–Hartree–Fock reference)",
+               "valence": "valence electron outside the core (V^(N-1) basis)"}
+
+
+def second_order_table(res, check=None) -> str:
+    """The readable table of ``relbasis second-order``: increments, sums, extrapolation, verdict."""
+    lines = [
+        f"relbasis {__version__} second-order Coulomb energy: {_KIND_WORDS[res.kind]}, reference {res.reference}",
+        f"{'no-pair (positive branch only)' if not res.negative_branch else 'negative branch included'}; "
+        f"c = {res.c:.10g}; {res.seconds:.1f} s",
+        "",
+        f"  {'L':>3} {'increment (hartree)':>22} {'sum through L':>22}",
+    ]
+    total = 0.0
+    for L, d in enumerate(res.increments):
+        total += d
+        lines.append(f"  {L:>3} {d:22.12f} {total:22.12f}")
+    lines += [
+        "",
+        f"  sum through l_max = {res.l_max}   {res.energy:22.12f} hartree",
+        f"  extrapolated          {res.extrapolated:22.12f} +- {res.uncertainty:.1e} "
+        f"(tail law (L+1/2)^-p, p = {', '.join(map(str, res.fit_powers)) or 'none'}; last increments fall as "
+        f"(L+1/2)^-{res.exponent:.2f})",
+    ]
+    for name, value in res.parts.items():
+        lines.append(f"    {name.replace('_', ' '):<28} {value:22.12f}")
+    if res.flags:
+        lines.append(f"  flags: {', '.join(res.flags)}")
+    if check is not None:
+        lines += ["", f"  completeness for {check.target:.0e} hartree: {check.verdict.upper()} "
+                      f"(estimated error {check.error:.1e})"]
+        for v in check.variations:
+            lines.append(f"    {v.setting:<28} {v.result.extrapolated:22.12f}  change {v.change:+.1e}")
+        lines += [f"    - {a}" for a in check.advice]
+    lines += ["", "Holds for the stated model only (Dirac–Coulomb, this nuclear model, no Breit, no QED, second order); "
+                  "validate before use in publications."]
+    return "\n".join(lines)
+
+
+def _cmd_second_order(args) -> int:
+    from .completeness import completeness
+    from .perturbation import L_MAX_LIMIT, second_order
+    from .solver import as_config
+
+    if not 0 <= args.l_max <= L_MAX_LIMIT:
+        raise InputError(f"--l-max {args.l_max}: valid 0 <= L <= {L_MAX_LIMIT}")
+    config, over = _config_source(args)
+    cfg = as_config(config, **over)
+    progress = args.progress
+    if args.check:
+        chk = completeness(cfg, args.l_max, target=_target(args.target), negative_branch=args.negative_branch,
+                           progress=progress, allow_large=args.allow_large)
+        res = chk.result
+    else:
+        chk = None
+        res = second_order(cfg, args.l_max, negative_branch=args.negative_branch, progress=progress,
+                           allow_large=args.allow_large)
+    if args.json:
+        doc = {"relbasis": __version__, "second_order": res.to_dict()}
+        if chk is not None:
+            doc["completeness"] = chk.to_dict()
+        print(json.dumps(doc, indent=1))
+    else:
+        print(second_order_table(res, chk))
+    return 0
+
+
+def _target(value: float) -> float:
+    if not (value > 0 and math.isfinite(value)):
+        raise InputError(f"--target {value!r}: give a positive accuracy in hartree, e.g. --target 1e-6")
+    return value
+
+
 # ----------------------------------------------------------------------------- critical
 
 
@@ -443,6 +520,17 @@ def build_parser() -> argparse.ArgumentParser:
                         "Self-consistent Dirac–Hartree–Fock core: total energy and parts, orbital table, iterations.")
     mf.add_argument("--json", action="store_true", help="print the JSON of the core (the scf object)")
     mf.set_defaults(func=_cmd_mean_field)
+    so = _model_command(sub, "second-order", "second-order Coulomb energy summed over the basis, by partial wave",
+                        "Second-order energy of the 1s^2 pair (no [electrons]), of a closed core, or of a valence "
+                        "electron, resolved by partial wave and extrapolated in l_max; --check judges the basis.")
+    so.add_argument("--l-max", type=int, default=6, metavar="L", help="largest l of the intermediate states (default 6)")
+    so.add_argument("--negative-branch", action="store_true",
+                    help="include intermediate states of the negative branch (default: no-pair)")
+    so.add_argument("--check", action="store_true",
+                    help="also solve with 1.5x the functions and a 1.5x wider reach, and give a verdict with advice")
+    so.add_argument("--target", type=float, default=1e-6, help="accuracy wanted for --check, hartree (default 1e-6)")
+    so.add_argument("--json", action="store_true", help="print the JSON document instead of the table")
+    so.set_defaults(func=_cmd_second_order)
     au = _model_command(sub, "audit", "diagnose a basis: checks, verdict, advice",
                         "Checks of a basis before a production run, with a verdict and advice.")
     au.add_argument("--max-n", type=int, default=5, metavar="N", help="bound states checked: n <= N (default 5)")

@@ -80,12 +80,6 @@ L_MAX_LIMIT = 30
 FIT_POWERS = (4, 5, 6)
 """Powers of 1/(L + 1/2) in the asymptotic law of the increments (module docstring)."""
 
-NEAR_ZERO = 1e-3
-"""A term with a negative-branch state whose denominator is below this fraction of 2c^2 marks
-the sum ``near-zero-denominator``: one electron in each branch can have eps_m + eps_n = eps_a +
-eps_b, the Brown–Ravenhall degeneracy (G. E. Brown, D. G. Ravenhall, Proc. R. Soc. A 208, 552
-(1951)), and the sum then depends on how close a discrete pair of the basis lands."""
-
 EXTRAPOLATION_START = 3
 """Smallest L whose increment enters the fit: the law is asymptotic, and at L <= 2 the
 increments of a two-electron pair still differ from it by tens of percent."""
@@ -240,7 +234,7 @@ def _checked_l_max(l_max) -> int:
     return int(l_max)
 
 
-def _solution(config_or_solution, l_max: int, c, progress) -> Solution:
+def _solution(config_or_solution, l_max: int, c, progress, allow_large: bool) -> Solution:
     """The solution to sum over: the given one, or a solve of the config with every kappa of
     l <= l_max (and those of the core and the valence electron)."""
     if isinstance(config_or_solution, Solution):
@@ -258,7 +252,7 @@ def _solution(config_or_solution, l_max: int, c, progress) -> Solution:
         wanted |= set(cfg.electrons.kappas)
     kappas = tuple(sorted(wanted, key=lambda k: (abs(k), k > 0)))
     cfg = replace(cfg, solve=replace(cfg.solve, kappas=kappas))
-    return solve(cfg, c=c, progress=progress)
+    return solve(cfg, c=c, progress=progress, allow_large=allow_large)
 
 
 def _solved_l_max(sol: Solution) -> int:
@@ -431,7 +425,7 @@ def _pair_sum(block: _Block, a: _Orbital, b: _Orbital, M: dict[int, _States], N:
 
 
 def second_order(config_or_solution=None, l_max: int = DEFAULT_L_MAX, *, negative_branch: bool = False,
-                 c: float | None = None, progress: bool | None = None) -> SecondOrder:
+                 c: float | None = None, progress: bool | None = None, allow_large: bool = False) -> SecondOrder:
     """The second-order Coulomb energy summed over the basis (module docstring).
 
     Parameters
@@ -450,6 +444,8 @@ def second_order(config_or_solution=None, l_max: int = DEFAULT_L_MAX, *, negativ
         Speed of light (atomic units) for the nonrelativistic limit, as in ``relbasis.solve``.
     progress : bool, optional
         Progress bar (default: when attached to a terminal).
+    allow_large : bool
+        Solve a basis beyond the size guard, as in ``relbasis.solve``.
 
     Returns
     -------
@@ -461,7 +457,7 @@ def second_order(config_or_solution=None, l_max: int = DEFAULT_L_MAX, *, negativ
     l_max = _checked_l_max(l_max)
     if not isinstance(negative_branch, bool):
         raise InputError(f"negative_branch = {negative_branch!r}: valid True or False")
-    sol = _solution(config_or_solution, l_max, c, progress)
+    sol = _solution(config_or_solution, l_max, c, progress, allow_large)
     r, w = sol.grid
     block = _Block(r, w, sol.family_set.panel_points)
     wanted = kappas_through(l_max)
@@ -488,8 +484,11 @@ def second_order(config_or_solution=None, l_max: int = DEFAULT_L_MAX, *, negativ
     if tally.flagged:
         parts["flagged_spurious"] = float(tally.flagged)
         flags.append("spurious-roots-included")
-    if negative_branch and tally.smallest_gap < NEAR_ZERO * 2 * sol.c**2:
-        flags.append("near-zero-denominator")
+    if negative_branch and tally.one_negative != 0.0:
+        # one electron in each branch: eps_m + eps_n = eps_a + eps_b has solutions in the two
+        # continua (the Brown–Ravenhall degeneracy, G. E. Brown, D. G. Ravenhall, Proc. R. Soc.
+        # A 208, 552 (1951)), so this part depends on where the basis puts its discrete pairs
+        flags.append("brown-ravenhall")
     if ex.powers == ():
         flags.append("not-extrapolated")
     return SecondOrder(kind=kind, reference=reference, energy=energy, extrapolated=energy + ex.tail,

@@ -36,7 +36,7 @@ LAYERS: tuple[tuple[str, ...], ...] = (
     ("solver",),
     ("integrals", "critical", "plots", "reader", "measures", "scf"),
     ("checks", "writer", "scan", "perturbation"),
-    ("audit",),
+    ("audit", "completeness"),
     ("report",),
     # 14 the command line and the package's front door
     ("cli",),
