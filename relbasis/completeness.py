@@ -20,7 +20,7 @@ from dataclasses import dataclass, replace
 
 from .config import resolve
 from .constants import C
-from .errors import InputError
+from .families import family_of
 from .perturbation import DEFAULT_L_MAX, SecondOrder, second_order
 from .solver import as_config
 from .validate import real
@@ -69,20 +69,14 @@ def _changed(cfg, name: str):
     """The config with one setting refined, and the words for it; None where the basis is given
     explicitly (knots or exponents listed) and cannot be refined by one number."""
     b = cfg.basis
+    family = family_of(b)
     if name == "size":
-        if isinstance(b.knots, tuple) or b.exponents is not None:
+        if not family.resizable(b):
             return None
         size = int(math.ceil(REFINEMENT * b.size))
         return replace(cfg, basis=replace(b, size=size)), f"basis.size = {size}"
-    if b.family == "gaussian":
-        if b.exponents is not None:
-            return None
-        zmin = b.exponent_min / REFINEMENT**2
-        return replace(cfg, basis=replace(b, exponent_min=zmin)), f"basis.exponent_min = {zmin:.4g}"
-    if isinstance(b.knots, tuple):
-        return None
-    r_max = REFINEMENT * b.r_max
-    return replace(cfg, basis=replace(b, r_max=r_max)), f"basis.r_max = {r_max:.4g}"
+    widened = family.widened(b, REFINEMENT)
+    return None if widened is None else (replace(cfg, basis=widened[0]), widened[1])
 
 
 def completeness(config=None, l_max: int = DEFAULT_L_MAX, *, target: float = DEFAULT_TARGET,
@@ -140,9 +134,9 @@ def _advice(cfg, base: SecondOrder, variations, target: float) -> list[str]:
     size, reach = by.get("size"), by.get("reach")
     if size is not None and abs(size.change) > target:
         cheaper = ""
-        if reach is not None and abs(reach.change) <= target and cfg.basis.family == "bspline":
+        if reach is not None and abs(reach.change) <= target and family_of(cfg.basis).has_wall:
             cheaper = (f"; the reach is not what limits it (a {REFINEMENT:g} times wider one moved it by only "
-                       f"{reach.change:+.1e}), so a smaller basis.r_max at this size also puts more functions "
+                       f"{reach.change:+.1e}), so a smaller cavity at this size also puts more functions "
                        f"where the pair lives")
         out.append(f"size: {size.setting} moves the energy by {size.change:+.1e} hartree; the basis needs more "
                    f"functions: raise basis.size further until the change is below {target:.0e}{cheaper}")
@@ -157,7 +151,7 @@ def _advice(cfg, base: SecondOrder, variations, target: float) -> list[str]:
         out.append(f"reach: {reach.setting} (with {size.setting if size else 'the same size'}) moves the energy by "
                    f"{reach.change:+.1e} hartree; the intermediate states need a wider reach: widen {key} "
                    f"(and raise basis.size with it) until the change is below {target:.0e}")
-    if isinstance(cfg.basis.knots, tuple) or cfg.basis.exponents is not None:
+    if not family_of(cfg.basis).resizable(cfg.basis):
         out.append("the basis is given explicitly (knots or exponents listed): its size and reach were not varied")
     if "brown-ravenhall" in base.flags:
         out.append("the negative-branch part with one electron in each branch has no converged value "

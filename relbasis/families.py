@@ -73,6 +73,11 @@ class BasisFamily:
         """Advice that gives the far-out states more room."""
         raise NotImplementedError
 
+    def widened(self, spec, factor: float):
+        """(basis spec, words) with the reach widened by ``factor`` in length, or None where the
+        basis is given explicitly (relbasis.completeness)."""
+        raise NotImplementedError
+
     def read_layout(self, attrs: dict, reading) -> tuple[str, int | None]:
         """(wall, order) of an exported file's root attributes, checked (``reading``: the
         reader's helpers; raise ``reading.Damaged`` with what is wrong)."""
@@ -163,6 +168,11 @@ class BSplineFamily(BasisFamily):
 
     def cavity_fix(self, spec, factor: float = 1.5) -> str:
         return f"raise r_max to {factor * spec.r_max:.4g} bohr"
+
+    def widened(self, spec, factor: float):
+        if isinstance(spec.knots, tuple):
+            return None
+        return replace(spec, r_max=factor * spec.r_max), f"basis.r_max = {factor * spec.r_max:.4g}"
 
     def read_layout(self, attrs, reading):
         from .config import MAX_ORDER
@@ -307,6 +317,13 @@ class GaussianFamily(BasisFamily):
     def cavity_fix(self, spec, factor: float = 10.0) -> str:
         zmin = spec.exponent_min if spec.exponents is None else min(spec.exponents)
         return f"lower exponent_min to {zmin / factor:.3g}"
+
+    def widened(self, spec, factor: float):
+        """The reach of the most diffuse Gaussian goes as zeta_min^(-1/2)."""
+        if spec.exponents is not None:
+            return None
+        zmin = spec.exponent_min / factor**2
+        return replace(spec, exponent_min=zmin), f"basis.exponent_min = {zmin:.4g}"
 
     def read_set(self, reading, attrs, layout, grid):
         """The exponents (checked: finite, positive, not empty); every kappa follows from them."""
