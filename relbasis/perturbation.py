@@ -106,8 +106,9 @@ def extrapolate(increments, powers=FIT_POWERS, start: int = EXTRAPOLATION_START)
     With n powers the coefficients A_p are fitted exactly to the last n increments (L = l_max - n
     + 1 .. l_max) and the tail is sum_p A_p zeta(p, l_max + 3/2).  The fits with one, two and
     three powers (as far as the increments from ``start`` on allow) are compared: the tail is
-    the richest fit's, the uncertainty the largest difference between consecutive fits (the
-    last term's size; at least the richest fit's change from the one before).  With fewer than
+    the richest fit's, the uncertainty the largest difference between consecutive fits, or the
+    difference from the tail of a pure power law with the exponent the last two increments
+    show, if that is larger (increments not yet on the law).  With fewer than
     two increments from ``start`` on there is no extrapolation: tail 0, uncertainty the last
     increment times the tail of a pure (L + 1/2)^-4 law, so that the caller can still see how
     far the sum is from converged.
@@ -128,6 +129,12 @@ def extrapolate(increments, powers=FIT_POWERS, start: int = EXTRAPOLATION_START)
         A = np.linalg.solve((L[:, None] + 0.5) ** -np.array(ps, dtype=float)[None, :], d[L])
         tails.append(float(sum(a * _hurwitz(p, top + 1) for a, p in zip(A, ps))))
     spread = max(abs(b - a) for a, b in zip(tails, tails[1:])) if len(tails) > 1 else abs(tails[0])
+    if np.isfinite(exponent) and exponent > 1.5:
+        # the increments may not have reached the law yet (at Z alpha ~ 0.4 and above they fall
+        # as (L+1/2)^-3.4..-3.9 at L ~ 8..10, docs/second-order.md): the tail of a pure power
+        # with the measured exponent bounds that case
+        measured = float(d[top] * (top + 0.5) ** exponent * zeta(exponent, top + 1.5))
+        spread = max(spread, abs(measured - tails[-1]))
     return Extrapolation(tails[-1], spread, tuple(powers[:len(tails)]), exponent)
 
 
