@@ -74,7 +74,6 @@ LAYOUTS = (1, 2)  # 1: bare nucleus; 2: a Dirac–Hartree–Fock core (group "co
 L_MAX_LIMIT = 30
 FIT_POWERS = (4, 5, 6)  # powers of 1/(L + 1/2) in the law of the increments
 EXTRAPOLATION_START = 3  # smallest L whose increment enters the fit (the law is asymptotic)
-NEAR_ZERO = 1e-3  # a negative-branch term with |denominator| below this fraction of 2c^2 is noted
 LETTERS = "spdfghiklmnoqrtuvwxyz"  # l = 0, 1, 2, ... (j skipped after i, common practice)
 
 
@@ -239,14 +238,54 @@ def cumulative(w: np.ndarray, f: np.ndarray, A: np.ndarray) -> np.ndarray:
     return (partial + before[:, None, :]).reshape(f.shape)
 
 
+_ORIGIN = {}
+
+
+def origin_panel_kernel(k: int, nq: int, points: int = 240) -> np.ndarray:
+    """W_ij = int_0^1 l_j(t) K(t_i, t) dt on the reference panel [0, 1]: l_j the Lagrange
+    polynomials of the nq Gauss–Legendre nodes t_i, K(r, s) = (s/r)^k (s < r), (r/s)^(k+1)
+    (s > r), homogeneous of degree 0, so that a first panel [0, b] needs only b W.  The part
+    s < t_i is a polynomial (exact Gauss–Legendre); the part s > t_i is smooth in u = ln(t/t_i)."""
+    if (k, nq) not in _ORIGIN:
+        x, wx = np.polynomial.legendre.leggauss(nq)
+        t = (x + 1.0) / 2.0
+        bary = (-1.0) ** np.arange(nq) * np.sqrt((1 - x * x) * wx)
+
+        def lagrange(s):  # barycentric formula (Berrut–Trefethen, SIAM Rev. 46, 501 (2004))
+            terms = bary[None, :] / (s[:, None] - t[None, :])
+            return terms / terms.sum(axis=1, keepdims=True)
+
+        xa, wa = np.polynomial.legendre.leggauss(nq + k // 2 + 2)
+        xu, wu = np.polynomial.legendre.leggauss(points)
+        W = np.zeros((nq, nq))
+        for i, ti in enumerate(t):  # nq target nodes, not grid points
+            s = ti * (xa + 1.0) / 2.0
+            W[i] += (wa * ti / 2.0 * (s / ti) ** k) @ lagrange(s)
+            top = np.log(1.0 / ti)
+            u = top * (xu + 1.0) / 2.0
+            W[i] += (wu * top / 2.0 * np.exp(-k * u) * ti) @ lagrange(ti * np.exp(u))
+        _ORIGIN[(k, nq)] = W
+    return _ORIGIN[(k, nq)]
+
+
 def yk(r, w, rho, k, A):
     """Y^k(r) = r^-k int_0^r s^k rho + r^(k+1) int_r^inf s^-(k+1) rho, every column of rho.
     The outer integral runs from the right end (the reversed grid is again a panel grid), so
-    that far out it is not a small difference of two large totals."""
+    that far out it is not a small difference of two large totals.  A first panel that starts
+    at the origin takes rho itself against the exact kernel there (origin_panel_kernel): s^-(k+1)
+    rho is singular in it and s^k rho varies by (b/r_1)^k, which no interpolation follows."""
+    nq = A.shape[0]
     rk = r**k
     inner = cumulative(w, rho * rk[:, None], A)
-    outer = cumulative(w[::-1], (rho / (rk * r)[:, None])[::-1], A)[::-1]
-    return inner / rk[:, None] + outer * (rk * r)[:, None]
+    g = rho / (rk * r)[:, None]
+    outer = cumulative(w[::-1], g[::-1], A)[::-1]
+    out = inner / rk[:, None] + outer * (rk * r)[:, None]
+    width = float(np.sum(w[:nq]))
+    start = r[0] - (1.0 + np.polynomial.legendre.leggauss(nq)[0][0]) * width / 2.0
+    if rho.shape[0] > nq and abs(start) <= 1e-12 * width:
+        beyond = np.sum(w[nq:, None] * g[nq:], axis=0)
+        out[:nq] = width * (origin_panel_kernel(k, nq) @ rho[:nq]) + (rk[:nq] * r[:nq])[:, None] * beyond[None, :]
+    return out
 
 
 # ------------------------------------------------------------------------------------------
@@ -447,9 +486,9 @@ def pair_sum(rad, a, b, M, N, l_index, by_l, exclude=None) -> float:
             if mask is not None:
                 delta, num = np.where(mask, 1.0, delta), np.where(mask, 0.0, num)
             by_l[l_index(km, kn)] += (num / delta).sum()
-            neg = Sm["neg"][:, None] | Sn["neg"][None, :]
-            if neg.any():  # one electron in each branch can make the denominator vanish
-                gap = min(gap, float(np.abs(delta[neg]).min()))
+            one = Sm["neg"][:, None] ^ Sn["neg"][None, :]
+            if one.any():  # one electron in each branch: the denominator can vanish (Brown–Ravenhall)
+                gap = min(gap, float(np.abs(delta[one]).min()))
     return gap
 
 
@@ -527,9 +566,10 @@ def second_order(data, l_max=6, negative_branch=False) -> dict:
     if l_max - EXTRAPOLATION_START + 1 < 2:
         notes.append(f"not extrapolated: needs --l-max >= {EXTRAPOLATION_START + 1}; the uncertainty is the size "
                      "of a pure (L+1/2)^-4 tail")
-    if gap < NEAR_ZERO * 2 * data["c"] ** 2:  # the Brown–Ravenhall degeneracy, as relbasis flags it
-        notes.append(f"near-zero denominator {gap:.3g} hartree in a term with a negative-branch state: the sum "
-                     "depends on how close a discrete pair of the basis lands")
+    if gap < math.inf:  # terms with one electron in each branch: relbasis flags them "brown-ravenhall"
+        notes.append(f"brown-ravenhall: terms with one electron in each branch (smallest denominator {gap:.3g} "
+                     "hartree) have no converged value: eps_m + eps_n = eps_a + eps_b has solutions in the two "
+                     "continua (G. E. Brown, D. G. Ravenhall, Proc. R. Soc. A 208, 552 (1951))")
     spurious = sum(int((data["kappas"][k]["branches"][S["roots"]] == "spurious").sum()) for k, S in states.items())
     return {"kind": kind, "energy_hartree": energy, "extrapolated_hartree": energy + tail,
             "uncertainty_hartree": uncertainty, "increments_hartree": [float(x) for x in by_l],
@@ -556,7 +596,8 @@ def extrapolate(d, powers=FIT_POWERS, start=EXTRAPOLATION_START) -> tuple[float,
     With n powers, A_p is fitted exactly to the last n increments and the tail is
     sum_p A_p zeta(p, l_max + 3/2); fits with 1, 2, 3 powers (as far as the increments from
     ``start`` allow): tail of the richest, uncertainty the largest change between consecutive
-    fits.  Fewer than two increments from ``start``: tail 0, uncertainty |d_top| (top+1/2)^4
+    fits, or the difference from the tail of a pure power law with the exponent of the last two
+    increments if that is larger.  Fewer than two increments from ``start``: tail 0, uncertainty |d_top| (top+1/2)^4
     zeta(4, top + 3/2), the size of a pure (L + 1/2)^-4 tail.
     """
     d = np.asarray(d, dtype=float)
@@ -571,6 +612,12 @@ def extrapolate(d, powers=FIT_POWERS, start=EXTRAPOLATION_START) -> tuple[float,
         A = np.linalg.solve((L[:, None] + 0.5) ** -np.array(ps, dtype=float)[None, :], d[L])
         tails.append(float(sum(a * _hurwitz(p, top + 1) for a, p in zip(A, ps))))
     spread = max(abs(y - x) for x, y in zip(tails, tails[1:])) if len(tails) > 1 else abs(tails[0])
+    exponent = math.nan  # the power law the last two increments show
+    if top >= 1 and d[top] != 0 and d[top - 1] != 0 and np.sign(d[top]) == np.sign(d[top - 1]):
+        exponent = float(-np.log(d[top] / d[top - 1]) / np.log((top + 0.5) / (top - 0.5)))
+    if math.isfinite(exponent) and exponent > 1.5:  # increments not yet on the law: a pure power with it
+        measured = float(d[top] * (top + 0.5) ** exponent * zeta(exponent, top + 1.5))
+        spread = max(spread, abs(measured - tails[-1]))
     return tails[-1], spread
 
 
