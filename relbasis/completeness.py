@@ -137,7 +137,7 @@ def _advice(cfg, base: SecondOrder, variations, target: float) -> list[str]:
         if reach is not None and abs(reach.change) <= target and family_of(cfg.basis).has_wall:
             cheaper = (f"; the reach is not what limits it (a {REFINEMENT:g} times wider one moved it by only "
                        f"{reach.change:+.1e}), so a smaller cavity at this size also puts more functions "
-                       f"where the pair lives")
+                       f"where the correlation happens")
         out.append(f"size: {size.setting} moves the energy by {size.change:+.1e} hartree; the basis needs more "
                    f"functions: raise basis.size further until the change is below {target:.0e}{cheaper}")
     if reach is not None and reach.change > target:

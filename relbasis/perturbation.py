@@ -80,6 +80,12 @@ L_MAX_LIMIT = 30
 FIT_POWERS = (4, 5, 6)
 """Powers of 1/(L + 1/2) in the asymptotic law of the increments (module docstring)."""
 
+RELATIVISTIC_POWERS = (2, 4, 5)
+"""The alternative law whose tail bounds the uncertainty: the relativistic part of the
+increments, d_L(Z) - d_L(c -> inf), falls as (L + 1/2)^-2 at large Z alpha (measured at Z = 92:
+(L + 1/2)^2 times it constant to 10 % for L = 5..12, docs/second-order.md), a term the
+nonrelativistic law lacks."""
+
 EXTRAPOLATION_START = 3
 """Smallest L whose increment enters the fit: the law is asymptotic, and at L <= 2 the
 increments of a two-electron pair still differ from it by tens of percent."""
@@ -100,15 +106,22 @@ def _hurwitz(p: int, start: int) -> float:
     return float(zeta(p, start + 0.5))
 
 
+def _fitted_tail(d: np.ndarray, top: int, powers) -> float:
+    """sum_p A_p zeta(p, top + 3/2), the A_p fitted exactly to the last len(powers) increments."""
+    L = np.arange(top - len(powers) + 1, top + 1)
+    A = np.linalg.solve((L[:, None] + 0.5) ** -np.array(powers, dtype=float)[None, :], d[L])
+    return float(sum(a * _hurwitz(p, top + 1) for a, p in zip(A, powers)))
+
+
 def extrapolate(increments, powers=FIT_POWERS, start: int = EXTRAPOLATION_START) -> Extrapolation:
     """Tail of a partial-wave series whose increments d_L follow sum_p A_p (L + 1/2)^-p.
 
     With n powers the coefficients A_p are fitted exactly to the last n increments (L = l_max - n
     + 1 .. l_max) and the tail is sum_p A_p zeta(p, l_max + 3/2).  The fits with one, two and
     three powers (as far as the increments from ``start`` on allow) are compared: the tail is
-    the richest fit's, the uncertainty the largest difference between consecutive fits, or the
-    difference from the tail of a pure power law with the exponent the last two increments
-    show, if that is larger (increments not yet on the law).  With fewer than
+    the richest fit's; the uncertainty is the largest of the differences between consecutive
+    fits, from the fit of :data:`RELATIVISTIC_POWERS`, and from the tail of a pure power law
+    with the exponent the last two increments show (increments not yet on the law).  With fewer than
     two increments from ``start`` on there is no extrapolation: tail 0, uncertainty the last
     increment times the tail of a pure (L + 1/2)^-4 law, so that the caller can still see how
     far the sum is from converged.
@@ -122,13 +135,11 @@ def extrapolate(increments, powers=FIT_POWERS, start: int = EXTRAPOLATION_START)
     if usable < 2:
         guess = float(d[top] * (top + 0.5) ** 4 * _hurwitz(4, top + 1)) if top >= 0 else 0.0
         return Extrapolation(0.0, abs(guess), (), exponent)
-    tails = []
-    for n in range(1, min(len(powers), usable) + 1):
-        ps = powers[:n]
-        L = np.arange(top - n + 1, top + 1)
-        A = np.linalg.solve((L[:, None] + 0.5) ** -np.array(ps, dtype=float)[None, :], d[L])
-        tails.append(float(sum(a * _hurwitz(p, top + 1) for a, p in zip(A, ps))))
+    tails = [_fitted_tail(d, top, powers[:n]) for n in range(1, min(len(powers), usable) + 1)]
     spread = max(abs(b - a) for a, b in zip(tails, tails[1:])) if len(tails) > 1 else abs(tails[0])
+    alternative = _fitted_tail(d, top, RELATIVISTIC_POWERS) if usable >= len(RELATIVISTIC_POWERS) else None
+    if alternative is not None:
+        spread = max(spread, abs(alternative - tails[-1]))
     if np.isfinite(exponent) and exponent > 1.5:
         # the increments may not have reached the law yet (at Z alpha ~ 0.4 and above they fall
         # as (L+1/2)^-3.4..-3.9 at L ~ 8..10, docs/second-order.md): the tail of a pure power

@@ -74,6 +74,7 @@ LAYOUTS = (1, 2)  # 1: bare nucleus; 2: a Dirac–Hartree–Fock core (group "co
 L_MAX_LIMIT = 30
 FIT_POWERS = (4, 5, 6)  # powers of 1/(L + 1/2) in the law of the increments
 EXTRAPOLATION_START = 3  # smallest L whose increment enters the fit (the law is asymptotic)
+RELATIVISTIC_POWERS = (2, 4, 5)  # the alternative law: the relativistic part falls as (L + 1/2)^-2
 LETTERS = "spdfghiklmnoqrtuvwxyz"  # l = 0, 1, 2, ... (j skipped after i, common practice)
 
 
@@ -590,14 +591,22 @@ def _hurwitz(p, start) -> float:
     return float(zeta(p, start + 0.5))
 
 
+def fitted_tail(d, top, powers) -> float:
+    """sum_p A_p zeta(p, top + 3/2), the A_p fitted exactly to the last len(powers) increments."""
+    L = np.arange(top - len(powers) + 1, top + 1)
+    A = np.linalg.solve((L[:, None] + 0.5) ** -np.array(powers, dtype=float)[None, :], d[L])
+    return float(sum(a * _hurwitz(p, top + 1) for a, p in zip(A, powers)))
+
+
 def extrapolate(d, powers=FIT_POWERS, start=EXTRAPOLATION_START) -> tuple[float, float]:
     """(tail, uncertainty) of the increments d_L beyond the last one.
 
     With n powers, A_p is fitted exactly to the last n increments and the tail is
     sum_p A_p zeta(p, l_max + 3/2); fits with 1, 2, 3 powers (as far as the increments from
     ``start`` allow): tail of the richest, uncertainty the largest change between consecutive
-    fits, or the difference from the tail of a pure power law with the exponent of the last two
-    increments if that is larger.  Fewer than two increments from ``start``: tail 0, uncertainty |d_top| (top+1/2)^4
+    fits, the difference from the fit of (L+1/2)^-2, ^-4, ^-5 (the relativistic part of the
+    increments falls as (L+1/2)^-2, measured) and that from the tail of a pure power law with
+    the exponent of the last two increments, whichever is largest.  Fewer than two increments from ``start``: tail 0, uncertainty |d_top| (top+1/2)^4
     zeta(4, top + 3/2), the size of a pure (L + 1/2)^-4 tail.
     """
     d = np.asarray(d, dtype=float)
@@ -605,13 +614,10 @@ def extrapolate(d, powers=FIT_POWERS, start=EXTRAPOLATION_START) -> tuple[float,
     usable = top - start + 1
     if usable < 2:
         return 0.0, abs(float(d[top] * (top + 0.5) ** 4 * _hurwitz(4, top + 1)))
-    tails = []
-    for n in range(1, min(len(powers), usable) + 1):
-        ps = powers[:n]
-        L = np.arange(top - n + 1, top + 1)
-        A = np.linalg.solve((L[:, None] + 0.5) ** -np.array(ps, dtype=float)[None, :], d[L])
-        tails.append(float(sum(a * _hurwitz(p, top + 1) for a, p in zip(A, ps))))
+    tails = [fitted_tail(d, top, powers[:n]) for n in range(1, min(len(powers), usable) + 1)]
     spread = max(abs(y - x) for x, y in zip(tails, tails[1:])) if len(tails) > 1 else abs(tails[0])
+    if usable >= len(RELATIVISTIC_POWERS):  # a relativistic (L+1/2)^-2 part bounds the uncertainty too
+        spread = max(spread, abs(fitted_tail(d, top, RELATIVISTIC_POWERS) - tails[-1]))
     exponent = math.nan  # the power law the last two increments show
     if top >= 1 and d[top] != 0 and d[top - 1] != 0 and np.sign(d[top]) == np.sign(d[top - 1]):
         exponent = float(-np.log(d[top] / d[top - 1]) / np.log((top + 0.5) / (top - 0.5)))

@@ -146,7 +146,7 @@ def main():
     if "sodium" in parts:
         valence(11, "[Ne]", "3s1/2", (2, 4, 6, 8))
     if "cesium" in parts:
-        valence(55, "[Xe]", "6s1/2", (2, 4, 6))
+        valence(55, "[Xe]", "6s1/2", (2, 4, 6, 8, 10))
     if "timing" in parts:
         timing()
 
