@@ -125,15 +125,17 @@ def _rayleigh(Hm: np.ndarray, Sm: np.ndarray | None, V: np.ndarray, normalised: 
     if normalised and not np.all(np.abs(norm - 1.0) < NORM_TOLERANCE):
         raise sl.LinAlgError("eigh's vectors are not S-normalised: the overlap is numerically singular")
     energies = np.einsum("ij,ij->j", V, HV) / norm
-    resid = np.sqrt(np.einsum("ij,ij->j", *(2 * [HV - SV * energies[None, :]])) / norm)
+    HV -= SV * energies[None, :]  # the residuals, in place
+    resid = np.sqrt(np.einsum("ij,ij->j", HV, HV) / norm)
     rounding = _rounding(Hm, V) / norm
-    order = np.argsort(energies, kind="stable")
-    energies, resid, rounding, V = energies[order], resid[order], rounding[order], V[:, order]
+    if np.any(np.diff(energies) < 0):  # eigh's order, unless the quotients cross
+        order = np.argsort(energies, kind="stable")
+        energies, resid, rounding, V, norm = energies[order], resid[order], rounding[order], V[:, order], norm[order]
     gaps = np.diff(energies)
     gap = np.minimum(np.concatenate([[np.inf], gaps]), np.concatenate([gaps, [np.inf]]))
     with np.errstate(divide="ignore", invalid="ignore"):
         bound = np.where(gap > resid, np.minimum(resid, resid**2 / gap), resid)
-    return energies, V / np.sqrt(norm[order]), bound + rounding
+    return energies, V / np.sqrt(norm), bound + rounding
 
 
 def _kato_temple(r: np.ndarray, norm: float, energies: np.ndarray, j: int) -> float:

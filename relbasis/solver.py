@@ -215,13 +215,18 @@ def solve_symmetry(fset, kappa: int, terms, partner: Spectrum | None = None,
     check_roots(kappa, system.energies, system.vectors, system.error, cause)
     V = hamiltonian.local_potential(terms, r)
     window = examined(system.energies, fset.c)
+    dive = can_dive(r, V, fset.c)
     if levels_only:
         P_all = None
-        if not can_dive(r, V, fset.c):
+        if not dive:
             window = gap(system.energies, fset.c)
     else:
         P_all = fset.node_matrix(basis, sampled) @ system.vectors
-    P, Q, DP = sampled.evaluate(system.vectors[:, window], ("P", "Q", "DP"))
+    if dive or levels_only:
+        P, Q, DP = sampled.evaluate(system.vectors[:, window], ("P", "Q", "DP"))
+    else:  # the roots below the gap need only P, for their sign (no level can dive)
+        P, = sampled.evaluate(system.vectors[:, window], ("P",))
+        Q, DP = sampled.evaluate(system.vectors[:, gap(system.energies, fset.c)], ("Q", "DP"))
     external = duplicate_roots(kappa, system.energies, partner)
     spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, w, V, fset.c, external,
                     r=r, wall=fset.wall_radius, reference=reference, window=window)

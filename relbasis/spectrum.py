@@ -258,6 +258,9 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     of the roots within the symmetry: a root whose node count disagrees with its place gets
     the flag ``nodes-disagree`` (and no n at all if its node count repeats one already given).
 
+    ``Q`` and ``DP`` may instead hold the columns of the gap's roots alone where no level can
+    dive (:func:`can_dive`): the roots of the dive window then need P only, for their sign.
+
     ``P_all`` None leaves the roots not examined with the sign they came with, and ``window``
     (a mask) may name the columns of P, Q, DP instead of :func:`examined`: the gap alone where
     no level can dive (:func:`can_dive`); both for the reduced basis of the error estimate,
@@ -270,14 +273,19 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     sign = np.ones(energies.size) if P_all is None else _first_sign(P_all)
     sign[window] = _first_sign(P)
     vectors = vectors * sign[None, :]
-    P, Q, DP = P * sign[window], Q * sign[window], DP * sign[window]
+    gap_only = Q.shape[1] != P.shape[1]  # Q and D+P given for the roots of the gap alone
+    if gap_only and can_dive(r, V, c):
+        raise ValueError("classify: Q and D+P of the whole window are needed where a level can dive")
+    P = P * sign[window]
+    Q, DP = Q * sign[gap if gap_only else window], DP * sign[gap if gap_only else window]
     in_gap = gap[window]
     nodes = np.full(energies.size, -1)
     residual = np.full(energies.size, np.nan)
     estimate = np.full(energies.size, np.nan)
     cavity = np.zeros(energies.size)
     if np.any(gap):
-        Pg, Qg, DPg = P[:, in_gap], Q[:, in_gap], DP[:, in_gap]
+        Pg = P[:, in_gap]
+        Qg, DPg = (Q, DP) if gap_only else (Q[:, in_gap], DP[:, in_gap])
         nodes[gap] = count_nodes(Pg, w)
         residual[gap] = balance_residual(Qg, DPg, energies[gap], V, w, c)
         if wall is not None and r is not None:
