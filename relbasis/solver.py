@@ -442,6 +442,12 @@ class ReducedBasis:
     caller solves the reduced basis whole instead, as before.
     """
 
+    @staticmethod
+    def applies(rough_set) -> bool:
+        """True for a family set whose reduced levels can be found this way: no canonical
+        orthogonalisation asked for (B-splines without an overlap threshold)."""
+        return rough_set.threshold is None
+
     def __init__(self, rough_set, kappa: int, terms):
         self.set, self.kappa, self.terms = rough_set, kappa, terms
         self.basis = rough_set.build(kappa)
@@ -516,7 +522,7 @@ def _solve_resolved(cfg: Config, small: Config | None, nucleus: Nucleus, c: floa
             def reference(kappa, wanted):
                 nonlocal failed
                 failed, was = ("reduced", kappa), failed
-                levels = reduced[kappa].levels(wanted, spectra.get(-kappa))
+                levels = reduced[kappa].levels(wanted, spectra.get(-kappa)) if kappa in reduced else None
                 if levels is None:  # a check failed: the reduced basis solved whole decides
                     levels = whole_levels(kappa)[0]
                 failed = was
@@ -527,7 +533,10 @@ def _solve_resolved(cfg: Config, small: Config | None, nucleus: Nucleus, c: floa
                 if rough_set is None:  # no reduced basis: no level can be confirmed (all unconverged)
                     continue
                 _starting(bar, f"reduced basis, kappa {kappa:+d}")
-                reduced[kappa] = ReducedBasis(rough_set, kappa, terms)
+                if ReducedBasis.applies(rough_set):
+                    reduced[kappa] = ReducedBasis(rough_set, kappa, terms)
+                else:  # solved whole now, as before (Gaussians, a B-spline overlap threshold)
+                    whole_levels(kappa)
                 _finished(bar)
             spectra = {}
             for kappa in group:

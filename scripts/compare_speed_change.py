@@ -41,6 +41,11 @@ CASES = [
     ("Z=1 c=1e6", {"ion": {"Z": 1, "nucleus": "point"}}, 1e6),
     ("Z=92 c=1e4", {"ion": {"Z": 92, "nucleus": "point"}}, 1e4),
     ("Z=10 size 40", {"ion": {"Z": 10}, "basis": {"size": 40}}, None),
+    ("Z=92 point size 30", {"ion": {"Z": 92, "nucleus": "point"}, "basis": {"size": 30}}, None),
+    ("Z=50 size 24", {"ion": {"Z": 50}, "basis": {"size": 24}}, None),
+    ("Z=80 gauss size 60", {"ion": {"Z": 80, "nucleus": "gauss"}, "basis": {"size": 60}}, None),
+    ("Z=1 r_max 20", {"ion": {"Z": 1, "nucleus": "point"}, "basis": {"r_max": 20.0}}, None),
+    ("Ne core (mean field)", {"ion": {"Z": 10}, "electrons": {"core": "[He] 2s1/2 2p1/2 2p3/2"}}, None),
 ]
 
 RUNNER = """
@@ -58,10 +63,16 @@ for name, cfg, c in cases:
         est = s.error_estimate
         rec[str(k)] = {"e": [float(x) for x in s.energies], "b": list(s.branches), "n": list(s.n),
                        "l": list(s.labels), "f": [list(f) for f in s.flags],
-                       "est": [None if est is None or not np.isfinite(x) else float(x) for x in (est if est is not None else [])]}
+                       "est": [None if np.isnan(x) else "inf" if np.isinf(x) else float(x)
+                               for x in (est if est is not None else [])]}
     out["cases"][name] = rec
 print(json.dumps(out))
 """
+
+
+def _number(x):
+    """An estimate as stored: a float, "inf" (the reduced basis lacks the level) or None (none made)."""
+    return np.inf if x == "inf" else x
 
 
 def run(tree: Path) -> dict:
@@ -99,12 +110,12 @@ def main() -> int:
                 levels += 1
                 ea, eb = ra["e"][i], rb["e"][i]
                 rel = abs(ea - eb) / abs(ea)
-                est = ra["est"][i] if ra["est"] and ra["est"][i] is not None else 0.0
+                ea_est, eb_est = (_number(r["est"][i]) if r["est"] else None for r in (ra, rb))
                 worst_diff = max(worst_diff, rel)
-                worst_share = max(worst_share, rel / max(1e-13, est))
-                ea_est, eb_est = ra["est"][i], rb["est"][i]
+                worst_share = max(worst_share, rel / max(1e-13, ea_est or 0.0))
                 if ea_est is not None and eb_est is not None and ea_est > 1e-12:
-                    ratios.append(eb_est / ea_est if ea_est > 0 else np.inf)
+                    # the reduced basis lacks the level (inf) in both: the same verdict
+                    ratios.append(1.0 if ea_est == eb_est == np.inf else eb_est / ea_est)
         rng = f"{min(ratios):.3f}..{max(ratios):.3f}" if ratios else "-"
         ok = same_labels and same_flags and worst_share <= 1.0 and all(1 / 1.5 <= r <= 1.5 for r in ratios)
         bad += not ok
