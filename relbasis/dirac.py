@@ -215,9 +215,10 @@ class DiracBasis:
         P, Q, DP, idx = local.P, local.Q, local.DP, local.index
         w = local.w.reshape(P.shape[:2])[..., None]
         wP, wQ = w * P, w * Q
-        S_loc = _bt(wP, P) + _bt(wQ, Q)
+        QQ = _bt(wQ, Q)  # in S and in the rest-mass term
+        S_loc = _bt(wP, P) + QQ
         cross = _bt(wQ, DP)
-        T_loc = -2 * self.c**2 * _bt(wQ, Q) + self.c * (cross + cross.transpose(0, 2, 1))
+        T_loc = -2 * self.c**2 * QQ + self.c * (cross + cross.transpose(0, 2, 1))
         n = self.size
         return _scatter(T_loc, idx, n, local.slots_for(n)) + self.wall_matrix(), _scatter(S_loc, idx, n, local.slots_for(n))
 
