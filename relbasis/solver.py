@@ -282,7 +282,7 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
     work is estimated above about 2 s and stderr is a terminal.
 
     Every labelled level carries an error estimate (:mod:`relbasis.confidence`), made by
-    solving a reduced basis first and comparing level by level.
+    comparing it with the same level of a reduced basis (:class:`ReducedBasis`).
 
     Parameters
     ----------
