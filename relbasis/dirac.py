@@ -293,12 +293,12 @@ class LocalChannels:
         size = self.size if size is None else size
         M = getattr(self, channel_names(channel)[0])
         n_int, nq, slots = M.shape
-        out = np.zeros((n_int * nq, size))
         rows = np.broadcast_to(np.arange(n_int * nq).reshape(n_int, nq, 1), M.shape)
         cols = np.broadcast_to(self.index[:, None, :], M.shape)
         keep = cols >= 0
-        np.add.at(out, (rows[keep], cols[keep]), M[keep])
-        return out
+        # a sum per (point, function), as np.add.at would make it, in one pass
+        flat = np.bincount(rows[keep] * size + cols[keep], weights=M[keep], minlength=n_int * nq * size)
+        return flat.reshape(n_int * nq, size)
 
     def evaluate(self, coefficients: np.ndarray, channels=("P", "Q", "DP")):
         """Components (names "P", "Q", "DP" = D+P, "DQ" = D-Q, or a string of the letters

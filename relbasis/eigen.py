@@ -433,10 +433,13 @@ def roots_near(H: np.ndarray, S: np.ndarray, shifts, order: np.ndarray | None = 
         Y /= np.sqrt(np.einsum("ij,ij->j", Y, Ss @ Y))
         X[:, cols] = Y
         new = np.einsum("ij,ij->j", Y, Hs @ Y)
+        if np.isnan(rho[cols]).all():  # the first step: nothing to compare with yet
+            rho[cols] = new
+            continue
         Y2 = Y * Y
         rounding = EPS * np.sqrt(np.einsum("ij,ij->j", Y2, H2 @ Y2))
         tol = np.maximum.reduce([SEEDED_SETTLED * np.abs(new - shifts[cols]), 4 * rounding, 4 * EPS * np.abs(new)])
-        done = np.abs(new - rho[cols]) <= tol  # False on the first step (rho is NaN)
+        done = np.abs(new - rho[cols]) <= tol
         energies[cols[done]] = new[done]
         settled[cols[done]] = True
         alive[cols[done]] = False
