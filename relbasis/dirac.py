@@ -215,9 +215,10 @@ class DiracBasis:
         P, Q, DP, idx = local.P, local.Q, local.DP, local.index
         w = local.w.reshape(P.shape[:2])[..., None]
         wP, wQ = w * P, w * Q
-        S_loc = _bt(wP, P) + _bt(wQ, Q)
+        QQ = _bt(wQ, Q)  # in S and in the rest-mass term
+        S_loc = _bt(wP, P) + QQ
         cross = _bt(wQ, DP)
-        T_loc = -2 * self.c**2 * _bt(wQ, Q) + self.c * (cross + cross.transpose(0, 2, 1))
+        T_loc = -2 * self.c**2 * QQ + self.c * (cross + cross.transpose(0, 2, 1))
         n = self.size
         return _scatter(T_loc, idx, n, local.slots_for(n)) + self.wall_matrix(), _scatter(S_loc, idx, n, local.slots_for(n))
 
@@ -292,12 +293,12 @@ class LocalChannels:
         size = self.size if size is None else size
         M = getattr(self, channel_names(channel)[0])
         n_int, nq, slots = M.shape
-        out = np.zeros((n_int * nq, size))
         rows = np.broadcast_to(np.arange(n_int * nq).reshape(n_int, nq, 1), M.shape)
         cols = np.broadcast_to(self.index[:, None, :], M.shape)
         keep = cols >= 0
-        np.add.at(out, (rows[keep], cols[keep]), M[keep])
-        return out
+        # a sum per (point, function), as np.add.at would make it, in one pass
+        flat = np.bincount(rows[keep] * size + cols[keep], weights=M[keep], minlength=n_int * nq * size)
+        return flat.reshape(n_int * nq, size)
 
     def evaluate(self, coefficients: np.ndarray, channels=("P", "Q", "DP")):
         """Components (names "P", "Q", "DP" = D+P, "DQ" = D-Q, or a string of the letters

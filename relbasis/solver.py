@@ -7,8 +7,10 @@ Gaussian exponents and their grid), then runs one pipeline per kappa for every f
 (:mod:`relbasis.hamiltonian`: the nucleus, and any term the caller adds), every root
 (:mod:`relbasis.eigen`), refinement of the roots in the bound-state window, and the sorting
 (:mod:`relbasis.spectrum`).  Negative kappas are done first so that the duplicate-level check
-of kappa > 0 can look at its partner -kappa.  A reduced basis is solved first for the error
-estimate of every level (:mod:`relbasis.confidence`).
+of kappa > 0 can look at its partner -kappa.  The error estimate of every level
+(:mod:`relbasis.confidence`) compares it with the same level of a reduced basis, whose matrices
+are built first and whose levels are found from the full basis's by inverse iteration
+(:class:`ReducedBasis`; the reduced basis is solved whole only where a check fails).
 """
 
 from __future__ import annotations
@@ -28,7 +30,7 @@ from .config import BasisSpec, Config, IonSpec, SolveSpec, from_dict, read_toml,
 from .constants import C
 from .dirac import FERMI_SURFACE_KNOTS, DiracBasis, build_splines  # noqa: F401  (public here as before)
 from .dirac_gaussian import GaussianDiracBasis
-from .eigen import Eigensystem, refine, shift_invert, solve as eigensolve
+from .eigen import Eigensystem, refine, roots_near, shift_invert, solve as eigensolve
 from .errors import InputError, MissingLevelError, option
 from .finite import check_matrices, check_roots
 from . import budget
@@ -37,7 +39,9 @@ from .confidence import reduced_config
 from .families import family_of
 from . import hamiltonian
 from .precision import EDGE_MARGIN, POLISH_SHARE, isolated, lost, near_edge, precision_flags, settle_edge, with_flags
-from .spectrum import Spectrum, can_dive, classify, duplicate_roots, examined, gap
+from .spectrum import (BALANCE_THRESHOLD, Spectrum, balance_residual, can_dive, classify, count_nodes,
+                       duplicate_roots, examined, gap)
+from .vocabulary import orbital_l
 
 
 @dataclass(frozen=True)
@@ -211,13 +215,18 @@ def solve_symmetry(fset, kappa: int, terms, partner: Spectrum | None = None,
     check_roots(kappa, system.energies, system.vectors, system.error, cause)
     V = hamiltonian.local_potential(terms, r)
     window = examined(system.energies, fset.c)
+    dive = can_dive(r, V, fset.c)
     if levels_only:
         P_all = None
-        if not can_dive(r, V, fset.c):
+        if not dive:
             window = gap(system.energies, fset.c)
     else:
         P_all = fset.node_matrix(basis, sampled) @ system.vectors
-    P, Q, DP = sampled.evaluate(system.vectors[:, window], ("P", "Q", "DP"))
+    if dive or levels_only:
+        P, Q, DP = sampled.evaluate(system.vectors[:, window], ("P", "Q", "DP"))
+    else:  # the roots below the gap need only P, for their sign (no level can dive)
+        P, = sampled.evaluate(system.vectors[:, window], ("P",))
+        Q, DP = sampled.evaluate(system.vectors[:, gap(system.energies, fset.c)], ("Q", "DP"))
     external = duplicate_roots(kappa, system.energies, partner)
     spec = classify(kappa, system.energies, system.vectors, P_all, P, Q, DP, w, V, fset.c, external,
                     r=r, wall=fset.wall_radius, reference=reference, window=window)
@@ -273,7 +282,7 @@ def solve(config=None, *, c: float | None = None, allow_large: bool = False, pro
     work is estimated above about 2 s and stderr is a terminal.
 
     Every labelled level carries an error estimate (:mod:`relbasis.confidence`), made by
-    solving a reduced basis first and comparing level by level.
+    comparing it with the same level of a reduced basis (:class:`ReducedBasis`).
 
     Parameters
     ----------
@@ -418,14 +427,72 @@ def _finished(bar):
         bar.update(1)
 
 
+class ReducedBasis:
+    """The reduced basis of one symmetry for the error estimate (:mod:`relbasis.confidence`):
+    its matrices, built before the full basis is solved, and its levels near those of the full
+    basis (:meth:`levels`).
+
+    Only the labelled levels of the reduced basis are wanted, and they lie within their error
+    of the full basis's: each is found by inverse iteration from the full basis's level
+    (:func:`relbasis.eigen.roots_near`, one banded factorisation per level), without the
+    eigendecomposition of the whole reduced basis.  The root found is checked to be the level
+    the sorting of a whole solve would give that n: inside the gap, with n - l - 1 nodes of P,
+    a balance residual below the threshold, and not a duplicate of a level of the partner
+    symmetry.  Where any check fails, or where the family orthogonalises or is not banded, the
+    caller solves the reduced basis whole instead, as before.
+    """
+
+    @staticmethod
+    def applies(rough_set) -> bool:
+        """True for a family set whose reduced levels can be found this way: no canonical
+        orthogonalisation asked for (B-splines without an overlap threshold)."""
+        return rough_set.threshold is None
+
+    def __init__(self, rough_set, kappa: int, terms):
+        self.set, self.kappa, self.terms = rough_set, kappa, terms
+        self.basis = rough_set.build(kappa)
+        self.sampled = rough_set.sample(self.basis)
+        self.H, self.S = hamiltonian.assemble(self.basis, self.sampled, terms)
+        check_matrices(kappa, self.H, self.S, rough_set.cause())
+
+    def levels(self, wanted: dict[int, float], partner: Spectrum | None) -> dict[int, float] | None:
+        """{n: level} of the reduced basis for the full basis's levels ``wanted`` ({n: level}),
+        or None where a check fails (``partner``: the full spectrum of -kappa, if solved)."""
+        if not wanted:
+            return {}
+        order = self.set.band_order(self.basis)
+        if self.set.threshold is not None or order is None:
+            return None
+        ns = np.array(list(wanted), dtype=int)
+        found = roots_near(self.H, self.S, [wanted[n] for n in ns], order)
+        if found is None:
+            return None
+        eps, vectors, settled = found
+        c = self.set.c
+        if not (settled.all() and np.all((eps > -2 * c * c) & (eps < 0))):
+            return None
+        sampled = self.sampled
+        P, Q, DP = sampled.evaluate(vectors, ("P", "Q", "DP"))
+        V = hamiltonian.local_potential(self.terms, sampled.r)
+        if (np.any(count_nodes(P, sampled.w) + orbital_l(self.kappa) + 1 != ns)
+                or not np.all(balance_residual(Q, DP, eps, V, sampled.w, c) <= BALANCE_THRESHOLD)
+                or duplicate_roots(self.kappa, eps, partner)):
+            return None
+        return {int(n): float(e) for n, e in zip(ns, eps)}
+
+
 def _solve_resolved(cfg: Config, small: Config | None, nucleus: Nucleus, c: float, bar=None, extra=(),
                     workers: int = 1) -> Solution:
     """The spectra of a resolved config, with the reduced basis ``small`` (None: none can be
-    made) solved first for the error estimates; ``extra``: potential terms added to the nucleus.
+    made) for the error estimates; ``extra``: potential terms added to the nucleus.
 
     The symmetries are solved in groups of equal |kappa|, -kappa before +kappa (the
-    duplicate-level check of kappa > 0 looks at -kappa), each group reduced basis first: the
-    full basis of kappa needs only the reduced levels of the same kappa.  With ``workers`` > 1
+    duplicate-level check of kappa > 0 looks at -kappa), each group reduced basis first (its
+    matrices, :class:`ReducedBasis`): the full basis of kappa needs only the reduced levels of
+    the same kappa, which the sorting of the full basis asks for once it has labelled its own
+    levels (:func:`relbasis.spectrum.classify`).  Where the levels so found fail a check the
+    reduced basis of kappa is solved whole (and, for kappa > 0, that of -kappa, for its
+    duplicate-level check), as every reduced basis was before.  With ``workers`` > 1
     the groups run in a pool of threads (numpy and LAPACK release the interpreter lock); every
     symmetry is computed by the same operations in the same order as by one thread, so the
     result is the same to the bit.  An error is raised as one thread would have met it: the
@@ -441,24 +508,42 @@ def _solve_resolved(cfg: Config, small: Config | None, nucleus: Nucleus, c: floa
     def run(group):
         done, failed = {}, None
         try:
-            reference, rough = {}, {}
+            reduced, whole = {}, {}
+
+            def whole_levels(kappa):
+                """The reduced basis solved whole (eigh, refinement, sorting): the levels it labels."""
+                if kappa not in whole:
+                    partner = whole_levels(-kappa)[1] if kappa > 0 and -kappa in group else None
+                    spec = solve_symmetry(rough_set, kappa, terms, partner, None, levels_only=True)[1]
+                    whole[kappa] = ({n: float(e) for n, e, b in zip(spec.n, spec.energies, spec.branches)
+                                     if n is not None and b == "bound"}, spec)
+                return whole[kappa]
+
+            def reference(kappa, wanted):
+                nonlocal failed
+                failed, was = ("reduced", kappa), failed
+                levels = reduced[kappa].levels(wanted, spectra.get(-kappa)) if kappa in reduced else None
+                if levels is None:  # a check failed: the reduced basis solved whole decides
+                    levels = whole_levels(kappa)[0]
+                failed = was
+                return levels
+
             for kappa in group:
                 failed = ("reduced", kappa)
                 if rough_set is None:  # no reduced basis: no level can be confirmed (all unconverged)
-                    reference[kappa] = {}
                     continue
                 _starting(bar, f"reduced basis, kappa {kappa:+d}")
-                spec = solve_symmetry(rough_set, kappa, terms, rough.get(-kappa), None, levels_only=True)[1]
-                rough[kappa] = spec
-                reference[kappa] = {n: float(e) for n, e, b in zip(spec.n, spec.energies, spec.branches)
-                                    if n is not None and b == "bound"}
+                if ReducedBasis.applies(rough_set):
+                    reduced[kappa] = ReducedBasis(rough_set, kappa, terms)
+                else:  # solved whole now, as before (Gaussians, a B-spline overlap threshold)
+                    whole_levels(kappa)
                 _finished(bar)
-            del rough  # its vectors are not needed beyond the levels: free them before the full solve
             spectra = {}
             for kappa in group:
                 failed = ("full", kappa)
                 _starting(bar, f"kappa {kappa:+d}")
-                done[kappa] = solve_symmetry(fset, kappa, terms, spectra.get(-kappa), reference[kappa])
+                ref = {} if rough_set is None else (lambda wanted, kappa=kappa: reference(kappa, wanted))
+                done[kappa] = solve_symmetry(fset, kappa, terms, spectra.get(-kappa), ref)
                 spectra[kappa] = done[kappa][1]
                 _finished(bar)
             return done, None

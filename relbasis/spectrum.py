@@ -77,21 +77,28 @@ def count_nodes(P: np.ndarray, w: np.ndarray, floor: float = NODE_FLOOR) -> np.n
     exponential tail and at the origin do not count as nodes.
     """
     P = P.reshape(P.shape[0], -1)
-    out = np.zeros(P.shape[1], dtype=int)
-    for j in range(P.shape[1]):
-        p = P[:, j]
-        sign = np.sign(p)
-        keep = sign != 0
-        p, sign, wk = p[keep], sign[keep], w[keep]
-        if p.size == 0:
-            continue
-        starts = np.flatnonzero(np.concatenate([[True], sign[1:] != sign[:-1]]))
-        weight = np.add.reduceat(wk * p * p, starts)
-        peak = np.maximum.reduceat(np.abs(p), starts)
-        real = (weight > floor * weight.sum()) & (peak > PEAK_FLOOR * peak.max())
-        signs = sign[starts][real]
-        out[j] = int(np.count_nonzero(signs[1:] != signs[:-1]))
-    return out
+    m = P.shape[1]
+    # every column at once: the non-zero values column after column, cut into lobes where the
+    # sign or the column changes
+    Pt = P.T
+    keep = Pt != 0
+    col = np.nonzero(keep)[0]
+    if col.size == 0:
+        return np.zeros(m, dtype=int)
+    p = Pt[keep]
+    sign = np.sign(p)
+    wk = np.broadcast_to(w, Pt.shape)[keep]
+    starts = np.flatnonzero(np.concatenate([[True], (sign[1:] != sign[:-1]) | (col[1:] != col[:-1])]))
+    weight = np.add.reduceat(wk * p * p, starts)
+    peak = np.maximum.reduceat(np.abs(p), starts)
+    lobe_col = col[starts]
+    firsts = np.flatnonzero(np.concatenate([[True], lobe_col[1:] != lobe_col[:-1]]))  # first lobe of each column
+    total = np.repeat(np.add.reduceat(weight, firsts), np.diff(np.append(firsts, weight.size)))
+    top = np.repeat(np.maximum.reduceat(peak, firsts), np.diff(np.append(firsts, weight.size)))
+    real = (weight > floor * total) & (peak > PEAK_FLOOR * top)
+    signs, cols = sign[starts][real], lobe_col[real]
+    flips = (signs[1:] != signs[:-1]) & (cols[1:] == cols[:-1])
+    return np.bincount(cols[1:][flips], minlength=m).astype(int)
 
 
 def gap(energies: np.ndarray, c: float) -> np.ndarray:
@@ -241,13 +248,18 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     ``vectors`` are the coefficients (basis x roots), returned with the sign fixed so that
     P > 0 near the origin.  ``external`` maps root indices to flags found outside this
     symmetry (duplicate levels; lost precision is added afterwards, relbasis.precision).  ``wall`` is the cavity radius (None: no
-    wall) and ``reference`` maps n to the level of a reduced basis; both feed the error
-    estimate of every labelled level (:mod:`relbasis.confidence`).  Levels are looked for
+    wall) and ``reference`` maps n to the level of a reduced basis, or is a function that
+    takes {n: level} of the labelled levels and returns that mapping (called once, after the
+    labels are given); both feed the error estimate of every labelled level
+    (:mod:`relbasis.confidence`).  Levels are looked for
     below -2c^2 (dived) only where the charge -r V(r) exceeds c somewhere (Z alpha > 1).
 
     n comes from the node count of P (n - l - 1 nodes) and is cross-checked against the order
     of the roots within the symmetry: a root whose node count disagrees with its place gets
     the flag ``nodes-disagree`` (and no n at all if its node count repeats one already given).
+
+    ``Q`` and ``DP`` may instead hold the columns of the gap's roots alone where no level can
+    dive (:func:`can_dive`): the roots of the dive window then need P only, for their sign.
 
     ``P_all`` None leaves the roots not examined with the sign they came with, and ``window``
     (a mask) may name the columns of P, Q, DP instead of :func:`examined`: the gap alone where
@@ -261,14 +273,19 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
     sign = np.ones(energies.size) if P_all is None else _first_sign(P_all)
     sign[window] = _first_sign(P)
     vectors = vectors * sign[None, :]
-    P, Q, DP = P * sign[window], Q * sign[window], DP * sign[window]
+    gap_only = Q.shape[1] != P.shape[1]  # Q and D+P given for the roots of the gap alone
+    if gap_only and can_dive(r, V, c):
+        raise ValueError("classify: Q and D+P of the whole window are needed where a level can dive")
+    P = P * sign[window]
+    Q, DP = Q * sign[gap if gap_only else window], DP * sign[gap if gap_only else window]
     in_gap = gap[window]
     nodes = np.full(energies.size, -1)
     residual = np.full(energies.size, np.nan)
     estimate = np.full(energies.size, np.nan)
     cavity = np.zeros(energies.size)
     if np.any(gap):
-        Pg, Qg, DPg = P[:, in_gap], Q[:, in_gap], DP[:, in_gap]
+        Pg = P[:, in_gap]
+        Qg, DPg = (Q, DP) if gap_only else (Q[:, in_gap], DP[:, in_gap])
         nodes[gap] = count_nodes(Pg, w)
         residual[gap] = balance_residual(Qg, DPg, energies[gap], V, w, c)
         if wall is not None and r is not None:
@@ -301,6 +318,7 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
         ns[i], labels[i], flags[i] = n, orbital_label(n, kappa), ("dived",)
     expected = l + 1 + len(dived)
     used = set(dived.values())
+    judged: list[tuple[int, int, list[str]]] = []  # (root, n, flags so far) of the labelled levels
     for i in np.flatnonzero(gap):
         why = reasons[i]
         if not why and nodes[i] + l + 1 < expected and (nodes[i] + l + 1) in used:
@@ -318,6 +336,10 @@ def classify(kappa: int, energies: np.ndarray, vectors: np.ndarray, P_all: np.nd
             continue
         used.add(n)
         ns[i], labels[i] = n, orbital_label(n, kappa)
+        judged.append((i, n, why))
+    if callable(reference):  # asked for the labelled levels only, once they are known
+        reference = reference({n: float(energies[i]) for i, n, _ in judged})
+    for i, n, why in judged:
         estimate[i], verdict = judge(float(energies[i]), None if reference is None else reference.get(n, np.inf),
                                      float(cavity[i]))
         flags[i] = tuple(dict.fromkeys(why + verdict))
