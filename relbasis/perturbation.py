@@ -306,11 +306,22 @@ def _states(sol: Solution, kappa: int, negative_branch: bool) -> _States:
 
 
 def _root_of(sol: Solution, kappa: int, n: int) -> int:
-    for i, m in enumerate(sol[kappa].n):
-        if m == n:
-            return i
-    raise InputError(f"the level n = {n} of kappa = {kappa} ({orbital_label(n, kappa)}) is not among the bound "
-                     f"roots of the basis; enlarge the basis or the cavity")
+    """The root of level n of kappa: the (n - l - 1)-th bound root in energy order, which must
+    also carry the label n (a basis too coarse to count the nodes right is refused rather than
+    summed over with the wrong orbital in the reference)."""
+    spec = sol[kappa]
+    bound = [i for i, b in enumerate(spec.branches) if b == "bound"]
+    place = n - orbital_l(kappa) - 1
+    label = orbital_label(n, kappa)
+    if place >= len(bound):
+        raise InputError(f"the level {label} (kappa = {kappa}) is not among the bound roots of the basis; "
+                         f"enlarge the basis or the cavity")
+    i = bound[place]
+    if spec.n[i] != n:
+        got = spec.labels[i] or "no label"
+        raise InputError(f"the basis does not resolve {label} (kappa = {kappa}): its bound root number {place + 1} "
+                         f"is labelled {got} (flags: {', '.join(spec.flags[i]) or 'none'}); enlarge the basis")
+    return i
 
 
 def _orbital(sol: Solution, kappa: int, n: int) -> _Orbital:

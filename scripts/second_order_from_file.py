@@ -433,10 +433,14 @@ def orbital(data, kappa, n, what) -> dict:
     if kappa not in data["kappas"]:
         raise Refused(f"basis file '{data['path']}': lacks kappa_{kappa}, needed for the {what}")
     blk = data["kappas"][kappa]
-    hit = np.flatnonzero(blk["n"] == n)
-    if hit.size != 1:
-        raise Refused(f"basis file '{data['path']}': no bound root n = {n} of kappa {kappa} (the {what})")
-    i = int(hit[0])
+    # the (n - l - 1)-th bound root in energy order, which must carry the label n (as relbasis does:
+    # a basis too coarse to count the nodes is refused rather than summed with the wrong orbital)
+    bound = np.flatnonzero(blk["branches"] == "bound")
+    place = n - orbital_l(kappa) - 1
+    if place >= bound.size or blk["n"][bound[place]] != n:
+        raise Refused(f"basis file '{data['path']}': bound root number {place + 1} of kappa {kappa} is not "
+                      f"n = {n} (the {what}); the basis does not resolve it")
+    i = int(bound[place])
     return {"kappa": kappa, "roots": np.array([i]), "e": blk["energies"][[i]], "P": blk["P"][:, [i]],
             "Q": blk["Q"][:, [i]], "neg": np.zeros(1, dtype=bool), "label": f"{n}{LETTERS[orbital_l(kappa)]}{j_twice(kappa)}/2"}
 
