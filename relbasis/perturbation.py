@@ -62,7 +62,6 @@ from scipy.special import zeta
 
 from . import coulomb
 from .angular import reduced_c, wigner_6j_doubled
-from .config import Config
 from .errors import InputError
 from .solver import Solution, as_config, solve
 from .vocabulary import j_twice, orbital_label, orbital_l
@@ -96,7 +95,7 @@ class Extrapolation:
     """The energy beyond l_max, from the last increments and the law sum_p A_p (L + 1/2)^-p."""
 
     tail: float  # hartree: the estimated sum of the increments L > l_max
-    uncertainty: float  # hartree: spread of the tails of fits with one, two and three powers
+    uncertainty: float  # hartree: the largest difference between the tails of the fits compared (extrapolate)
     powers: tuple[int, ...]  # the powers of the fit used for ``tail``
     exponent: float  # effective power of the last two increments, -log(d_L / d_(L-1)) / log((L+1/2)/(L-1/2))
 
