@@ -34,8 +34,8 @@ LAYERS: tuple[tuple[str, ...], ...] = (
     ("spectrum",),
     # 10 the solver, then what is computed from a solution
     ("solver",),
-    ("integrals", "critical", "plots", "reader", "measures", "scf"),
-    ("checks", "writer", "scan", "perturbation"),
+    ("integrals", "critical", "plots", "reader", "measures", "scf", "perturbation"),
+    ("checks", "writer", "scan"),
     ("audit", "completeness"),
     ("report",),
     # 14 the command line and the package's front door

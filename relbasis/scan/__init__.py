@@ -20,6 +20,9 @@ reference = "auto"            # "exact" (point nucleus), "largest" (largest basi
 
 ``[base.electrons]`` (a core, docs/dhf.md) goes into every unit: each runs the mean field, and
 the store and the analysis carry the core's total energy (docs/scan.md, "Scans of a core").
+``[track] second_order = L`` adds the second-order Coulomb energy summed over each unit's basis
+through l_max = L (relbasis.perturbation), its convergence table and its recommendation against
+``second_order_target`` (hartree; docs/scan.md, "Scans of a second-order energy").
 
 Each *unit* is one basis for one ion with the symmetries the tracked states need.  Finished
 units are appended to ``results.jsonl`` in the output folder, one JSON line each, keyed by a

@@ -84,8 +84,128 @@ def analyse(plan: Plan, everything: list[Unit], records: dict[str, dict]) -> dic
     core = core_convergence(plan, done)
     if core is not None:  # only for a scan of a core: bare-nucleus summaries keep their layout
         summary["core"] = core
-    summary["recommended"] = _recommend(plan, states, core)
+    second = second_order_convergence(plan, done)
+    if second is not None:  # only when the plan tracks it: other summaries keep their layout
+        summary["second_order"] = second
+    summary["recommended"] = _recommend(plan, states, core, second)
     return summary
+
+
+def _largest(members: list) -> tuple:
+    """The unit of the most complete basis among (unit, record) pairs: the most functions, then
+    the highest order; the first in the plan's order among equals."""
+    best = members[0]
+    for u, rec in members[1:]:
+        if (_size(rec), rec["resolved_basis"].get("order") or 0) > \
+                (_size(best[1]), best[1]["resolved_basis"].get("order") or 0):
+            best = (u, rec)
+    return best
+
+
+def _previous(plan: Plan, u: Unit, by_settings: dict) -> dict:
+    """For every axis, the record of the unit one value earlier on that axis with every other
+    setting the same (None for the first value, or when that unit is not finished)."""
+    out = {}
+    for k, vals in plan.axes:
+        i = [json.dumps(v, sort_keys=True) for v in vals].index(json.dumps(u.settings[k], sort_keys=True))
+        out[k] = by_settings.get(json.dumps({**u.settings, k: vals[i - 1]}, sort_keys=True)) if i else None
+    return out
+
+
+def second_order_convergence(plan: Plan, done: list) -> dict | None:
+    """The convergence of the tracked second-order energy in the basis (None when not tracked).
+
+    Per unit: the energy summed through l_max, its extrapolation in l and that extrapolation's
+    uncertainty (relbasis.perturbation), and ``difference_hartree`` = |E_x - E_x,ref|, E_x the
+    extrapolated energy, against the unit of the most complete basis of its ion (the most
+    functions, then the highest order: :func:`_largest`; ``is_reference`` marks it), and for
+    every axis the absolute change |E_x - E_x,prev| from the unit one value earlier on that
+    axis with every other setting the same (None for the first value).  The target is absolute
+    (hartree).  ``recommended`` is the smallest basis (fewest functions, then the smaller worst
+    difference) within the target of the reference for every ion, with no spurious root and a
+    sum that ran; the reference is no evidence for itself.  ``notes`` say when the verdict
+    rests on a reference that itself still moves by more than the target, or when the
+    uncertainty of the l extrapolation (common to every unit) exceeds the target."""
+    if plan.second_order is None:
+        return None
+    target = plan.second_order_target
+    mine = [(u, rec) for u, rec in done if rec.get("second_order", {}).get("l_max") == plan.second_order]
+    ran = [(u, rec) for u, rec in mine if "error" not in rec["second_order"]]
+    by_settings = {json.dumps(u.settings, sort_keys=True): rec for u, rec in ran}
+    groups: dict[str, list] = {}
+    for u, rec in ran:
+        groups.setdefault(_ion_key(u), []).append((u, rec))
+    refs = {gk: _largest(members) for gk, members in groups.items()}
+    rows = []
+    for u, rec in mine:
+        so = rec["second_order"]
+        row = {"settings": u.settings, "ion": u.config["ion"], "basis": u.config["basis"], "size": _size(rec),
+               "spurious_roots": rec.get("spurious", 0), "l_max": so["l_max"]}
+        ref = refs.get(_ion_key(u))
+        if "error" in so:
+            rows.append({**row, "error": so["error"], "kind": None, "energy_hartree": None,
+                         "extrapolated_hartree": None, "uncertainty_hartree": None, "increments_hartree": None,
+                         "flags": [], "reference_hartree": None if ref is None else ref[1]["second_order"]["extrapolated_hartree"],
+                         "difference_hartree": None, "is_reference": False,
+                         "change_hartree": {k: None for k, _ in plan.axes}})
+            continue
+        e = so["extrapolated_hartree"]
+        ref_e = ref[1]["second_order"]["extrapolated_hartree"]
+        prev = _previous(plan, u, by_settings)
+        rows.append({**row, "error": None, "kind": so["kind"], "energy_hartree": so["energy_hartree"],
+                     "extrapolated_hartree": e, "uncertainty_hartree": so["uncertainty_hartree"],
+                     "increments_hartree": so["increments_hartree"], "flags": so["flags"],
+                     "reference_hartree": ref_e, "difference_hartree": abs(e - ref_e), "is_reference": ref[0].key == u.key,
+                     "change_hartree": {k: None if p is None else abs(e - p["second_order"]["extrapolated_hartree"])
+                                        for k, p in prev.items()}})
+    keyed = sorted((_row_series(r), r["size"], i) for i, r in enumerate(rows))
+    rows = [rows[i] for _, _, i in keyed]
+    references = [{"ion": json.loads(gk), "settings": u.settings, "size": _size(rec), "unit": u.key,
+                   "extrapolated_hartree": rec["second_order"]["extrapolated_hartree"]}
+                  for gk, (u, rec) in refs.items()]
+    notes = []
+    settled = True
+    for r in rows:
+        if r["is_reference"]:
+            moves = [v for v in r["change_hartree"].values() if v is not None]
+            if moves and max(moves) > target:
+                settled = False
+                notes.append(f"the reference {r['settings']} still moves by {max(moves):.2e} hartree from its neighbour "
+                             f"(more than the target {target:g}): extend the scan")
+    worst_tail = max((r["uncertainty_hartree"] for r in rows if r["uncertainty_hartree"] is not None), default=None)
+    if worst_tail is not None and worst_tail > target:
+        notes.append(f"the uncertainty of the extrapolation beyond l_max = {plan.second_order} reaches "
+                     f"{worst_tail:.2e} hartree (more than the target {target:g}): the basis comparison holds at "
+                     f"l_max = {plan.second_order}, the absolute energy only to that uncertainty")
+    for r in rows:
+        if r["error"] is not None:
+            notes.append(f"no second-order energy for {r['settings']}: {r['error']}")
+    return {"quantity": "second-order energy", "kinds": sorted({r["kind"] for r in rows if r["kind"]}),
+            "l_max": plan.second_order, "target_hartree": target,
+            "reference": "the most complete basis of the scan (most functions, then highest order), per ion",
+            "references": references, "rows": rows, "recommended": _recommend_second(rows, target, settled), "notes": notes}
+
+
+def _recommend_second(rows: list[dict], target: float, settled: bool = True) -> dict | None:
+    """The smallest basis whose extrapolated second-order energy is within ``target`` (hartree)
+    of the reference for every ion (no spurious roots, the sum ran, not the reference itself);
+    ``reference_settled`` False when a reference still moves by more than the target from its
+    neighbour on an axis, i.e. the verdict is only as good as a reference that is not converged."""
+    verdict: dict[str, dict] = {}
+    for r in rows:
+        bk = json.dumps(r["basis"], sort_keys=True)
+        cand = verdict.setdefault(bk, {"basis": r["basis"], "size": r["size"], "ok": True, "worst": 0.0})
+        d = r["difference_hartree"]
+        if r["is_reference"] or d is None or d > target or r["spurious_roots"]:
+            cand["ok"] = False
+        if d is not None:
+            cand["worst"] = max(cand["worst"], d)
+    good = [c for c in verdict.values() if c["ok"]]
+    if not good:
+        return None
+    best = min(good, key=lambda c: (c["size"], c["worst"]))
+    return {"basis": best["basis"], "size": best["size"], "worst_difference_hartree": best["worst"],
+            "reference_settled": settled}
 
 
 def core_convergence(plan: Plan, done: list) -> dict | None:
@@ -133,11 +253,21 @@ def _row_series(row: dict) -> str:
     return json.dumps({"ion": row["ion"], "basis": basis}, sort_keys=True)
 
 
-def _recommend(plan: Plan, states, core=None) -> dict | None:
+def _recommend(plan: Plan, states, core=None, second=None) -> dict | None:
     """The smallest basis (fewest functions; then the smaller worst error) meeting the target for every tracked state
-    of every ion of the scan, and for the core's total energy when there is a core (its iteration converged);
-    a unit serving as the reference is no evidence for itself."""
+    of every ion of the scan, for the core's total energy when there is a core (its iteration converged), and
+    within the second-order target when a second-order energy is tracked (its own verdict,
+    :func:`_recommend_second`); a unit serving as the reference is no evidence for itself.
+    ``worst_relative_error`` is over the levels and the core's total energy (None when the plan
+    tracks only a second-order energy, whose differences are absolute: ``second_order``)."""
     verdict: dict[str, dict] = {}
+    if second is not None:
+        for r in second["rows"]:
+            bk = json.dumps(r["basis"], sort_keys=True)
+            cand = verdict.setdefault(bk, {"basis": r["basis"], "size": r["size"], "ok": True, "worst": 0.0})
+            d = r["difference_hartree"]
+            if r["is_reference"] or d is None or d > plan.second_order_target or r["spurious_roots"]:
+                cand["ok"] = False
     if core is not None:
         for row in core["rows"]:
             if not row["converged"]:
@@ -156,7 +286,8 @@ def _recommend(plan: Plan, states, core=None) -> dict | None:
     if not good:
         return None
     best = min(good, key=lambda c: (c["size"], c["worst"]))
-    return {"basis": best["basis"], "size": best["size"], "worst_relative_error": best["worst"]}
+    relative = bool(states) or core is not None
+    return {"basis": best["basis"], "size": best["size"], "worst_relative_error": best["worst"] if relative else None}
 
 
 def _sorted_with_rates(rows: list[dict]) -> tuple[list[dict], list[dict]]:

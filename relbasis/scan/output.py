@@ -18,6 +18,9 @@ OUTPUT_KIND = "scan"
 FIXED_OUTPUTS = ("results.jsonl", "summary.json", "convergence.csv")
 CORE_QUANTITY = "total energy"
 """The name of the core's total energy in the table, convergence.csv and its picture (error_total_energy.png)."""
+SECOND_ORDER_QUANTITY = "second-order energy"
+"""The name of a tracked second-order energy in the table and convergence.csv (no picture: its
+differences are absolute, the pictures draw relative errors)."""
 
 
 def _looks_like_results(path: Path) -> bool:
@@ -94,6 +97,15 @@ def write_outputs(out: Path, summary: dict, jobs: int = 1, ours=frozenset()) -> 
                           "relative_error": r["relative_error"], "is_reference": r["is_reference"],
                           **{f"relative_change_in_{k}": v for k, v in r["relative_change"].items()},
                           "iterations": r["iterations"], "converged": r["converged"]})
+    second = summary.get("second_order")
+    if second is not None:
+        for r in second["rows"]:
+            lines.append({"state": SECOND_ORDER_QUANTITY, **{k: v for k, v in r["settings"].items()}, "size": r["size"],
+                          "energy_hartree": r["extrapolated_hartree"], "reference_hartree": r["reference_hartree"],
+                          "is_reference": r["is_reference"], "summed_hartree": r["energy_hartree"],
+                          "uncertainty_hartree": r["uncertainty_hartree"], "difference_hartree": r["difference_hartree"],
+                          **{f"change_hartree_in_{k}": v for k, v in r["change_hartree"].items()},
+                          "l_max": r["l_max"], "flags": " ".join(r["flags"]) or None, "error": r["error"]})
     fields = []
     for line in lines:
         for k in line:
@@ -123,7 +135,9 @@ def _picture(label: str, state: dict, target: float, path: Path) -> None:
 
 def summary_table(summary: dict) -> str:
     """The printed form of a scan's analysis."""
-    lines = [f"scan: {summary['finished']} of {summary['units']} units finished; target {summary['target']:g}"]
+    lines = [f"scan: {summary['finished']} of {summary['units']} units finished; target {summary['target']:g}"
+             + ("" if "second_order" not in summary else
+                f"; second-order target {summary['second_order']['target_hartree']:g} hartree")]
     for lab, st in summary["states"].items():
         lines.append("")
         lines.append(f"{lab}")
@@ -141,13 +155,51 @@ def summary_table(summary: dict) -> str:
     core = summary.get("core")
     if core is not None:
         lines.extend(_core_table(core))
+    second = summary.get("second_order")
+    if second is not None:
+        lines.extend(_second_order_table(second))
     rec = summary["recommended"]
     lines.append("")
     if rec is None:
-        lines.append("recommended: none of the bases meets the target for every tracked state")
+        lines.append("recommended: none of the bases meets the target for every tracked "
+                     + ("quantity" if second is not None else "state"))
+    elif rec["worst_relative_error"] is None:
+        lines.append(f"recommended: {json.dumps(rec['basis'], sort_keys=True)}")
     else:
         lines.append(f"recommended: {json.dumps(rec['basis'], sort_keys=True)} (worst error {rec['worst_relative_error']:.2e})")
     return "\n".join(lines)
+
+
+def _second_order_table(second: dict) -> list[str]:
+    """The second-order energy per unit: extrapolated in l, its uncertainty, its difference from
+    the reference (the most complete basis) and its change from the previous value of each axis,
+    all in hartree; the flags or the reason the sum did not run; the recommendation and notes."""
+    axes = list(second["rows"][0]["change_hartree"]) if second["rows"] else []
+    head = "".join(f" {'change in ' + k.split('.', 1)[1]:>16}" for k in axes)
+    kinds = ", ".join(second["kinds"]) or "-"
+    lines = ["", f"{SECOND_ORDER_QUANTITY} ({kinds}; l_max = {second['l_max']}; target {second['target_hartree']:g} hartree; "
+             "reference: the most complete basis)",
+             f"  {'settings':<48} {'size':>5} {'extrapolated (hartree)':>22} {'uncertainty':>11} {'difference':>10}{head}  flags"]
+    fmt = lambda v: "-" if v is None else f"{v:.2e}"  # noqa: E731
+    for r in second["rows"]:
+        settings = ", ".join(f"{k.split('.', 1)[1]}={v}" for k, v in r["settings"].items())
+        if r["error"] is not None:
+            lines.append(f"  {settings:<48} {r['size']:>5} {'no sum (see notes)':>22}")
+            continue
+        diff = "reference" if r["is_reference"] else fmt(r["difference_hartree"])
+        changes = "".join(f" {fmt(r['change_hartree'][k]):>16}" for k in axes)
+        flags = " ".join(r["flags"]) + (f" ({r['spurious_roots']} spurious)" if r["spurious_roots"] else "")
+        lines.append(f"  {settings:<48} {r['size']:>5} {r['extrapolated_hartree']:>22.12f} {fmt(r['uncertainty_hartree']):>11} "
+                     f"{diff:>10}{changes}  {flags or '-'}")
+    rec = second["recommended"]
+    if rec is None:
+        lines.append(f"  recommended: none of the bases is within {second['target_hartree']:g} hartree of the reference")
+    else:
+        lines.append(f"  recommended: {json.dumps(rec['basis'], sort_keys=True)} "
+                     f"(worst difference {rec['worst_difference_hartree']:.2e} hartree"
+                     + ("" if rec["reference_settled"] else "; CAUTION: the reference itself still moves, see the notes") + ")")
+    lines.extend(f"  note: {n}" for n in second["notes"])
+    return lines
 
 
 def _core_table(core: dict) -> list[str]:

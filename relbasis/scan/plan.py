@@ -22,10 +22,15 @@ from ..electrons import parse_electrons
 from ..validate import suggest as _suggest
 from ..errors import ConfigError, InputError
 from ..outputs import read_input
+from ..perturbation import L_MAX_LIMIT, kappas_through
 from .store import RECORD_FORMAT
 
 
 REFERENCES = ("auto", "exact", "largest")
+TRACK_KEYS = ("states", "max_n", "target", "reference", "second_order", "second_order_target")
+"""The keys of a plan's [track]."""
+DEFAULT_SECOND_ORDER_TARGET = 1e-6
+"""Absolute accuracy (hartree) asked of a tracked second-order energy when the plan names none."""
 
 
 def parse_label(label: str) -> tuple[int, int]:
@@ -41,26 +46,38 @@ class Plan:
     max_n: int | None
     target: float
     reference: str
+    second_order: int | None = None  # l_max of a tracked second-order energy (relbasis.perturbation)
+    second_order_target: float = DEFAULT_SECOND_ORDER_TARGET  # hartree, absolute
 
     def kappas(self) -> tuple[int, ...]:
+        """The symmetries each unit solves: those of the tracked levels, and with a tracked
+        second-order energy every kappa of l <= l_max as well (the sum runs over them)."""
+        order = lambda k: (abs(k), k > 0)  # noqa: E731
+        wanted = set(kappas_through(self.second_order)) if self.second_order is not None else set()
         if self.states:
-            return tuple(sorted({parse_label(s)[1] for s in self.states}, key=lambda k: (abs(k), k > 0)))
+            return tuple(sorted({parse_label(s)[1] for s in self.states} | wanted, key=order))
+        if self.max_n is None:  # the second-order energy alone
+            return tuple(sorted(wanted, key=order))
         solve = self.base.get("solve", {})
         if "kappas" in solve:
-            return tuple(solve["kappas"])
-        return tuple(k for k in (-1, 1, -2, 2, -3, 3, -4, 4, -5, 5) if orbital_l(k) <= self.max_n - 1)
+            return tuple(sorted(set(solve["kappas"]) | wanted, key=order)) if wanted else tuple(solve["kappas"])
+        return tuple(sorted({k for k in (-1, 1, -2, 2, -3, 3, -4, 4, -5, 5) if orbital_l(k) <= self.max_n - 1} | wanted,
+                            key=order))
 
     def tracked(self, label: str | None, n: int | None) -> bool:
         if label is None:
             return False
         if self.states:
             return label in self.states
-        return n is not None and n <= self.max_n
+        return n is not None and self.max_n is not None and n <= self.max_n
 
     def to_dict(self) -> dict:
-        return {"base": self.base, "axes": {k: list(v) for k, v in self.axes},
-                "track": {"states": list(self.states) if self.states else None, "max_n": self.max_n,
-                          "target": self.target, "reference": self.reference}}
+        track = {"states": list(self.states) if self.states else None, "max_n": self.max_n,
+                 "target": self.target, "reference": self.reference}
+        if self.second_order is not None:  # only when tracked: other plans keep their summary
+            track["second_order"] = self.second_order
+            track["second_order_target"] = self.second_order_target
+        return {"base": self.base, "axes": {k: list(v) for k, v in self.axes}, "track": track}
 
 
 MAX_UNITS = 10_000
@@ -129,11 +146,11 @@ def plan_from_dict(data: dict, allow_large: bool = False) -> Plan:
                           f"at most {MAX_UNITS} are allowed: use fewer values per axis")
     track = data.get("track")
     if not isinstance(track, dict):
-        raise ConfigError("[track] is missing: give states = [\"1s1/2\", ...] or max_n = 4, and a target")
+        raise ConfigError("[track] is missing: give states = [\"1s1/2\", ...] or max_n = 4 (and/or second_order = L_MAX), "
+                          "and a target")
     for key in track:
-        if key not in ("states", "max_n", "target", "reference"):
-            raise ConfigError(f"unknown key track.{key}{_suggest(key, ('states', 'max_n', 'target', 'reference'))}; "
-                              "valid: states, max_n, target, reference")
+        if key not in TRACK_KEYS:
+            raise ConfigError(f"unknown key track.{key}{_suggest(key, TRACK_KEYS)}; valid: {', '.join(TRACK_KEYS)}")
     states = track.get("states")
     if states is not None:
         if isinstance(states, str) or not isinstance(states, list) or not states:
@@ -144,8 +161,20 @@ def plan_from_dict(data: dict, allow_large: bool = False) -> Plan:
     max_n = track.get("max_n")
     if max_n is not None and (isinstance(max_n, bool) or not isinstance(max_n, int) or max_n < 1):
         raise ConfigError(f"track.max_n = {max_n!r}: must be an integer >= 1")
-    if states is None and max_n is None:
-        raise ConfigError("[track] needs states = [...] or max_n = N")
+    second_order = track.get("second_order")
+    if second_order is not None and (isinstance(second_order, bool) or not isinstance(second_order, int)
+                                     or not 0 <= second_order <= L_MAX_LIMIT):
+        raise ConfigError(f"track.second_order = {second_order!r}: must be an integer l_max with 0 <= l_max <= {L_MAX_LIMIT} "
+                          "(the largest orbital l of the intermediate states)")
+    so_target = track.get("second_order_target", DEFAULT_SECOND_ORDER_TARGET)
+    if "second_order_target" in track and second_order is None:
+        raise ConfigError("track.second_order_target needs track.second_order = L_MAX (the second-order energy to track)")
+    if isinstance(so_target, bool) or not isinstance(so_target, numbers.Real) or not (0 < so_target < 1) \
+            or not math.isfinite(so_target):
+        raise ConfigError(f"track.second_order_target = {so_target!r}: must be an absolute accuracy in hartree "
+                          "between 0 and 1, e.g. 1e-6")
+    if states is None and max_n is None and second_order is None:
+        raise ConfigError("[track] needs states = [...], max_n = N or second_order = L_MAX")
     if states is not None and max_n is not None:
         raise ConfigError("[track]: give either states or max_n, not both")
     target = track.get("target", 1e-9)
@@ -154,7 +183,7 @@ def plan_from_dict(data: dict, allow_large: bool = False) -> Plan:
     reference = track.get("reference", "auto")
     if reference not in REFERENCES:
         raise ConfigError(f"track.reference = {reference!r}: valid are {', '.join(REFERENCES)}")
-    plan = Plan(base, tuple(axes), states, max_n, float(target), reference)
+    plan = Plan(base, tuple(axes), states, max_n, float(target), reference, second_order, float(so_target))
     check_units(plan, allow_large)
     if reference == "exact" and "electrons" in base:
         raise ConfigError("track.reference = 'exact' needs the bare nucleus: with [base.electrons] the levels are those "
@@ -236,10 +265,18 @@ class Unit:
     config: dict
     settings: dict  # the axis values of this unit, e.g. {"basis.size": 40}
     key: str
+    second_order: int | None = None  # l_max of the second-order energy the unit computes, if any
 
 
-def unit_key(config: dict) -> str:
-    text = json.dumps({"relbasis": __version__, "format": RECORD_FORMAT, "config": config}, sort_keys=True)
+def unit_key(config: dict, second_order: int | None = None) -> str:
+    """The key of a unit's record: a hash of its config, the record format and the version, and
+    the l_max of a tracked second-order energy.  Without one the key is what it always was, so
+    existing stores stay valid; with one, a record made without it (or with another l_max) is
+    not taken for this unit, whose record must carry that energy."""
+    data = {"relbasis": __version__, "format": RECORD_FORMAT, "config": config}
+    if second_order is not None:
+        data["second_order"] = {"l_max": int(second_order)}
+    text = json.dumps(data, sort_keys=True)
     return hashlib.sha256(text.encode()).hexdigest()[:24]
 
 
@@ -251,6 +288,16 @@ def _canonical_electrons(data, Z) -> dict:
         return parse_electrons(data, Z).to_dict()
     except (InputError, TypeError):
         return dict(data) if isinstance(data, dict) else data
+
+
+def _electron_kappas(data, Z) -> tuple[int, ...]:
+    """The symmetries of the core and valence subshells (none if they do not parse: check_units
+    then names the problem)."""
+    try:
+        electrons = parse_electrons(data, Z)
+    except (InputError, TypeError):
+        return ()
+    return (*electrons.kappas, *(() if electrons.valence is None else (electrons.valence.kappa,)))
 
 
 def units(plan: Plan) -> list[Unit]:
@@ -265,8 +312,12 @@ def units(plan: Plan) -> list[Unit]:
         for key, value in zip(keys, combo):
             sec, name = key.split(".")
             cfg[sec][name] = value
-        cfg["solve"] = {"kappas": list(plan.kappas())}
+        kappas = plan.kappas()
         if "electrons" in plan.base:
             cfg["electrons"] = _canonical_electrons(plan.base["electrons"], cfg["ion"].get("Z"))
-        out.append(Unit(cfg, dict(zip(keys, combo)), unit_key(cfg)))
+            if plan.second_order is not None:  # the sum needs the core's and the valence's symmetries too
+                kappas = tuple(sorted(set(kappas) | set(_electron_kappas(cfg["electrons"], cfg["ion"].get("Z"))),
+                                      key=lambda k: (abs(k), k > 0)))
+        cfg["solve"] = {"kappas": list(kappas)}
+        out.append(Unit(cfg, dict(zip(keys, combo)), unit_key(cfg, plan.second_order), plan.second_order))
     return out

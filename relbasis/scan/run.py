@@ -10,6 +10,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import InputError, option
+from ..perturbation import second_order as _second_order
 from ..outputs import checked_path, directory_for, write_manifest
 from .analysis import analyse
 from .output import _PICTURE, OUTPUT_KIND, claim_folder, write_outputs
@@ -17,8 +18,9 @@ from .plan import Plan, Unit, check_units, load_plan, plan_from_dict, unit_key, 
 from .store import Store
 
 
-def run_unit(config: dict) -> dict:
-    """Solve one unit and return its record (runs in a worker process)."""
+def run_unit(config: dict, second_order: int | None = None) -> dict:
+    """Solve one unit and return its record (runs in a worker process); with ``second_order`` =
+    l_max, the second-order energy summed over the unit's own Solution too (:func:`second_order_record`)."""
     from ..solver import solve
 
     t0 = time.perf_counter()
@@ -33,11 +35,13 @@ def run_unit(config: dict) -> dict:
         for e, n, lab in zip(spec.energies, spec.n, spec.labels):
             if lab is not None:
                 levels[lab] = float(e)
-    record = {"key": unit_key(config), "config": config, "levels": levels, "spurious": spurious,
+    record = {"key": unit_key(config, second_order), "config": config, "levels": levels, "spurious": spurious,
               "nucleus": sol.nucleus.model, "Z": float(sol.nucleus.Z),
               "resolved_basis": sol.config.to_dict()["basis"]}
     if sol.scf is not None:  # only with a core: bare-nucleus records keep their layout (and their keys)
         record["scf"] = scf_record(sol.scf)
+    if second_order is not None:  # only when tracked: other records keep their layout (and their keys)
+        record["second_order"] = second_order_record(sol, second_order)
     record["seconds"] = time.perf_counter() - t0
     return record
 
@@ -48,6 +52,24 @@ def scf_record(mean_field) -> dict:
     return {"total_energy_hartree": float(mean_field.total_energy),
             "orbitals": {k: float(v) for k, v in mean_field.orbitals.items()},
             "iterations": int(mean_field.iterations), "converged": bool(mean_field.converged)}
+
+
+SECOND_ORDER_FIELDS = ("kind", "energy_hartree", "extrapolated_hartree", "uncertainty_hartree",
+                       "increments_hartree", "l_max", "flags")
+"""The figures of a second-order energy kept in a unit's record (the keys of SecondOrder.to_dict)."""
+
+
+def second_order_record(sol, l_max: int) -> dict:
+    """The unit's second-order energy (relbasis.second_order on its own Solution, no-pair): the
+    fields of :data:`SECOND_ORDER_FIELDS`, or {"l_max", "error"} with the one-line reason when
+    the basis cannot carry the sum (e.g. it does not resolve an occupied orbital).  That verdict
+    is a property of the unit's config, as deterministic as its energy, so it is stored; the
+    analysis shows it and never recommends that basis."""
+    try:
+        res = _second_order(sol, l_max, progress=False).to_dict()
+    except InputError as err:
+        return {"l_max": int(l_max), "error": str(err)}
+    return {k: res[k] for k in SECOND_ORDER_FIELDS}
 
 
 @dataclass(frozen=True)
@@ -65,7 +87,7 @@ def _execute(todo: list[Unit], jobs: int, scheduler: str | None, store: Store, p
 
     if not todo:
         return 0
-    calls = (delayed(run_unit)(u.config) for u in todo)
+    calls = (delayed(run_unit)(u.config, u.second_order) for u in todo)
     bar = tqdm(total=len(todo), desc="units", unit="unit", disable=not progress)
     count = 0
     try:

@@ -35,11 +35,16 @@ class Store:
 
     def append(self, record: dict) -> None:
         """One os.write of one line with O_APPEND: the line lands whole, and once written it is in
-        the kernel and survives the process being killed; :meth:`sync` flushes it to the disk."""
+        the kernel and survives the process being killed; :meth:`sync` flushes it to the disk.
+        After a torn last line (a short write) the record starts on a line of its own, so that it
+        is not glued to the torn one and lost with it."""
         data = (json.dumps(record, sort_keys=True) + "\n").encode()
         try:
-            fd = os.open(self.path, os.O_WRONLY | os.O_APPEND | os.O_CREAT, 0o666)  # the umask decides
+            fd = os.open(self.path, os.O_RDWR | os.O_APPEND | os.O_CREAT, 0o666)  # the umask decides
             try:
+                size = os.fstat(fd).st_size
+                if size and os.pread(fd, 1, size - 1) != b"\n":
+                    data = b"\n" + data
                 if os.write(fd, data) != len(data):  # a short write: the disk is full; the torn line is ignored on reading
                     raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
             finally:
