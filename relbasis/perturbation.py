@@ -576,12 +576,11 @@ def _pair(sol, block, states, wanted, tally):
 
 def _split_core(sol, states, wanted):
     """The core orbitals (from the frozen-core spectra) and the states outside the core."""
-    core = [_orbital(sol, o.kappa, o.n) for o in sol.scf.core]
-    held = {(o.kappa, o.n) for o in sol.scf.core}
+    core = [_orbital(sol, o.kappa, o.n) for o in sol.scf.core]  # refuses a root whose label disagrees
+    held = {(k, i) for (k, _), i in sol.core_roots().items()}
     outside = {}
     for k in wanted:
-        spec = sol[k]
-        mask = np.array([(k, spec.n[i]) not in held for i in states[k].roots], dtype=bool)
+        mask = np.array([(k, int(i)) not in held for i in states[k].roots], dtype=bool)
         outside[k] = states[k].take(mask, "outside")
     return core, outside
 

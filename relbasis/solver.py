@@ -103,6 +103,24 @@ class Solution:
     def __contains__(self, kappa) -> bool:
         return kappa in self.spectra
 
+    def core_roots(self) -> dict[tuple[int, int], int]:
+        """{(kappa, n): root index} of the core orbitals in the frozen-core spectra (empty for a
+        bare nucleus): subshell (kappa, n) is the (n - l - 1)-th bound root of kappa in energy
+        order, as the mean field takes its occupied orbitals by count, whatever label the node
+        count gives it (a basis too coarse to count nodes flags the root nodes-disagree)."""
+        if self.scf is None:
+            return {}
+        out = {}
+        for o in self.scf.core:
+            spec = self.spectra.get(o.kappa)
+            if spec is None:
+                continue
+            bound = [i for i, b in enumerate(spec.branches) if b == "bound"]
+            place = o.n - orbital_l(o.kappa) - 1
+            if place < len(bound):
+                out[(o.kappa, o.n)] = bound[place]
+        return out
+
     def exact(self, kappa: int, n: int) -> float | None:
         """Exact Dirac–Coulomb binding energy for a point nucleus (one electron), else None."""
         if self.nucleus.model != "point" or self.nucleus.Z == 0 or self.scf is not None:
@@ -112,7 +130,7 @@ class Solution:
     def states(self) -> list[dict]:
         """Every root once, in symmetry order then ascending energy (the JSON ``states`` list)."""
         out = []
-        core = None if self.scf is None else {(o.kappa, o.n) for o in self.scf.core}
+        occupied = {(k, root) for (k, _), root in self.core_roots().items()}
         for kappa in self.kappas:
             spec = self.spectra[kappa]
             for i, eps in enumerate(spec.energies):
@@ -125,7 +143,7 @@ class Solution:
                     "flags": list(spec.flags[i]),
                     "error_estimate": _estimate(spec, i),
                 }
-                if core is not None and (kappa, spec.n[i]) in core:
+                if (kappa, i) in occupied:
                     rec["occupied"] = True
                 if spec.n[i] is not None and self.exact(kappa, spec.n[i]) is not None:
                     ex = self.exact(kappa, spec.n[i])

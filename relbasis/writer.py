@@ -164,8 +164,8 @@ def _core(sol, r: np.ndarray) -> tuple[dict, dict]:
     the direct potential J(r) on the file's grid, and per exported kappa the occupied roots.
 
     The orbitals are those of the mean field's own bases (``MeanField.orbital_values``), which are
-    the occupied roots of the frozen-core Hamiltonian; a root of kappa_K is occupied when (K, n)
-    is a core subshell, the rule of ``Solution.states``.
+    the occupied roots of the frozen-core Hamiltonian; the occupied root of subshell (K, n) is the
+    (n - l - 1)-th bound root of kappa_K (``Solution.core_roots``, the rule of ``Solution.states``).
     """
     mf = sol.scf
     core = mf.core
@@ -178,10 +178,8 @@ def _core(sol, r: np.ndarray) -> tuple[dict, dict]:
         "electrons_core": electrons["core"], "electrons_valence": electrons.get("valence", ""),
         "electron_count": int(mf.electron_count), "exchange_rule": EXCHANGE_RULE,
     }.items()}
-    roots = []
-    for o in core:
-        spec = sol.spectra.get(o.kappa)
-        roots.append(spec.n.index(o.n) if spec is not None and o.n in spec.n else -1)
+    where = sol.core_roots()
+    roots = [where.get((o.kappa, o.n), -1) for o in core]
     arrays = {
         f"{g}/labels": np.array([o.label for o in core], dtype=object),
         f"{g}/n": np.array([o.n for o in core], dtype=np.int64),
@@ -192,9 +190,10 @@ def _core(sol, r: np.ndarray) -> tuple[dict, dict]:
         f"{g}/P": np.asarray(P, dtype=float), f"{g}/Q": np.asarray(Q, dtype=float),
         f"{g}/direct_potential": np.asarray(mf.direct_potential(r), dtype=float),
     }
-    held = {(o.kappa, o.n) for o in core}
+    held = {(k, i) for (k, _), i in where.items()}
     for kappa in sol.kappas:
-        arrays[f"kappa_{kappa}/occupied"] = np.array([int((kappa, n) in held) for n in sol[kappa].n], dtype=np.int64)
+        arrays[f"kappa_{kappa}/occupied"] = np.array([int((kappa, i) in held) for i in range(len(sol[kappa]))],
+                                                     dtype=np.int64)
     return attrs, arrays
 
 

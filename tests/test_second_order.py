@@ -261,3 +261,20 @@ def test_cli_second_order_bad_flags_exit_2(capsys, argv, needle):
     assert main(["second-order", "--z", "4", "--size", "40"] + argv) == 2
     err = capsys.readouterr().err
     assert needle in err and len(err.strip().splitlines()) == 1
+
+
+def test_core_orbitals_are_taken_by_place_and_a_mislabelled_one_is_refused():
+    """Be in 30 splines: the 1s root is labelled 2s1/2 (flagged nodes-disagree).  The JSON marks
+    the lowest two bound roots occupied, as the mean field took them by count, and the second-order
+    sum refuses the basis rather than summing with a wrong reference orbital."""
+    sol = _solve({"ion": {"Z": 4, "nucleus": "point"}, "electrons": {"core": "1s1/2 2s1/2"},
+                  "basis": {"size": 30}}, 1)
+    spec = sol[-1]
+    bound = [i for i, b in enumerate(spec.branches) if b == "bound"]
+    assert sol.core_roots() == {(-1, 1): bound[0], (-1, 2): bound[1]}
+    occupied = [s for s in sol.states() if s.get("occupied")]
+    assert [s["energy_hartree"] for s in occupied] == [float(spec.energies[i]) for i in bound[:2]]
+    if spec.n[bound[0]] != 1:  # this basis mislabels the 1s: the sum must refuse it
+        assert "nodes-disagree" in spec.flags[bound[0]]
+        with pytest.raises(InputError, match="does not resolve 1s1/2"):
+            pt.second_order(sol, l_max=1)
