@@ -451,9 +451,9 @@ def _cmd_second_order(args) -> int:
 
 
 def _target(value: float) -> float:
-    if not (value > 0 and math.isfinite(value)):
-        raise InputError(f"--target {value!r}: give a positive accuracy in hartree, e.g. --target 1e-6")
-    return value
+    from .validate import real
+
+    return real("--target", value)  # the command line names its flag
 
 
 # ----------------------------------------------------------------------------- critical

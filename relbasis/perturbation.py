@@ -66,10 +66,6 @@ from .errors import InputError
 from .solver import Solution, as_config, solve
 from .vocabulary import j_twice, orbital_label, orbital_l
 
-KINDS = ("pair", "core", "valence")
-"""Which second-order energy: the 1s^2 pair of the bare nucleus, a closed core's correlation, or
-one valence electron outside the core (module docstring)."""
-
 DEFAULT_L_MAX = 6
 """Partial waves of the intermediate states summed when l_max is not given."""
 
@@ -263,13 +259,18 @@ def _solution(config_or_solution, l_max: int, c, progress, allow_large: bool) ->
             raise InputError(f"l_max = {l_max}: the solution lacks kappa {missing} (it has {list(sol.kappas)}); "
                              f"valid l_max <= {_solved_l_max(sol)}, or solve with those kappas")
         return sol
-    cfg = as_config(config_or_solution)
-    wanted = set(kappas_through(l_max))
+    return solve(summed_config(config_or_solution, l_max), c=c, progress=progress, allow_large=allow_large)
+
+
+def summed_config(config, l_max: int):
+    """The config with the symmetries a sum through l_max needs: every kappa of l <= l_max and
+    those of the core and the valence electron (a Config; ``config`` as for ``relbasis.solve``)."""
+    cfg = as_config(config)
+    wanted = set(kappas_through(_checked_l_max(l_max)))
     if cfg.electrons is not None:
         wanted |= set(cfg.electrons.kappas)
     kappas = tuple(sorted(wanted, key=lambda k: (abs(k), k > 0)))
-    cfg = replace(cfg, solve=replace(cfg.solve, kappas=kappas))
-    return solve(cfg, c=c, progress=progress, allow_large=allow_large)
+    return replace(cfg, solve=replace(cfg.solve, kappas=kappas))
 
 
 def _solved_l_max(sol: Solution) -> int:
@@ -384,11 +385,12 @@ class _Block:
 
     def y_over_r(self, b: _Orbital, states: _States, k: int) -> np.ndarray:
         """w Y^k[rho_jb] / r at the quadrature points for every j of ``states``."""
-        if b.label != self._b:
-            return coulomb.yk(self.r, self.w, self.rho(b, states), k, self.nq) * (self.w / self.r)[:, None]
         key = (states.name, states.kappa, k)
-        if key not in self._y:
-            self._y[key] = coulomb.yk(self.r, self.w, self.rho(b, states), k, self.nq) * (self.w / self.r)[:, None]
+        if b.label != self._b or key not in self._y:
+            y = coulomb.yk(self.r, self.w, self.rho(b, states), k, self.nq) * (self.w / self.r)[:, None]
+            if b.label != self._b:
+                return y  # not the orbital in use: nothing to keep
+            self._y[key] = y
         return self._y[key]
 
     def radial(self, a: _Orbital, b: _Orbital, I: _States, J: _States, k: int, rho_a=None) -> np.ndarray:

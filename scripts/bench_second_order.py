@@ -77,17 +77,12 @@ def bare(shapes):
 
 
 def case(name, cfg, l_max, c, repeat):
-    kappas = set(pt.kappas_through(l_max))
-    if "electrons" in cfg:
-        from relbasis.electrons import parse_electrons
-        kappas |= set(parse_electrons(cfg["electrons"], cfg["ion"]["Z"]).kappas)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         t0 = time.perf_counter()
         res = pt.second_order(cfg, l_max=l_max, c=c, progress=False)
         whole = time.perf_counter() - t0
-        sol = relbasis.solve(dict(cfg, solve={"kappas": sorted(kappas, key=lambda k: (abs(k), k > 0))}), c=c,
-                             progress=False)
+        sol = relbasis.solve(pt.summed_config(cfg, l_max), c=c, progress=False)
     sums = best_of(lambda: pt.second_order(sol, l_max=l_max), repeat)
     shapes = products(sol, l_max)
     plain = best_of(bare(shapes), repeat)

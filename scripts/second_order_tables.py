@@ -29,16 +29,7 @@ NR = 1e6
 def solve(cfg, l_max, c=None):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        return relbasis.solve(dict(cfg, solve={"kappas": list(pt.kappas_through(l_max) + tuple(_extra(cfg)))}),
-                              c=c, progress=False)
-
-
-def _extra(cfg):
-    if "electrons" not in cfg:
-        return ()
-    from relbasis.electrons import parse_electrons
-    el = parse_electrons(cfg["electrons"], cfg["ion"]["Z"])
-    return tuple(k for k in el.kappas)
+        return relbasis.solve(pt.summed_config(cfg, l_max), c=c, progress=False)
 
 
 def increments_table(res, title):

@@ -192,18 +192,10 @@ def _recommend_second(rows: list[dict], target: float, settled: bool = True) -> 
     ``reference_settled`` False when a reference still moves by more than the target from its
     neighbour on an axis, i.e. the verdict is only as good as a reference that is not converged."""
     verdict: dict[str, dict] = {}
-    for r in rows:
-        bk = json.dumps(r["basis"], sort_keys=True)
-        cand = verdict.setdefault(bk, {"basis": r["basis"], "size": r["size"], "ok": True, "worst": 0.0})
-        d = r["difference_hartree"]
-        if r["is_reference"] or d is None or d > target or r["spurious_roots"]:
-            cand["ok"] = False
-        if d is not None:
-            cand["worst"] = max(cand["worst"], d)
-    good = [c for c in verdict.values() if c["ok"]]
-    if not good:
+    _judge(verdict, rows, "difference_hartree", target)
+    best = _smallest(verdict)
+    if best is None:
         return None
-    best = min(good, key=lambda c: (c["size"], c["worst"]))
     return {"basis": best["basis"], "size": best["size"], "worst_difference_hartree": best["worst"],
             "reference_settled": settled}
 
@@ -253,6 +245,31 @@ def _row_series(row: dict) -> str:
     return json.dumps({"ion": row["ion"], "basis": basis}, sort_keys=True)
 
 
+def _candidate(verdict: dict, row: dict) -> dict:
+    """The entry of the row's basis in a verdict {basis: {basis, size, ok, worst}}."""
+    key = json.dumps(row["basis"], sort_keys=True)
+    return verdict.setdefault(key, {"basis": row["basis"], "size": row["size"], "ok": True, "worst": 0.0})
+
+
+def _judge(verdict: dict, rows, error_key: str, target: float, worst: bool = True) -> None:
+    """Mark each row's basis: not ok if the row is a reference (no evidence for itself), has no
+    error, misses the target or has spurious roots (never recommended, however accurate); with
+    ``worst`` the largest error of the basis is kept."""
+    for row in rows:
+        cand = _candidate(verdict, row)
+        err = row[error_key]
+        if row["is_reference"] or err is None or err > target or row["spurious_roots"]:
+            cand["ok"] = False
+        if worst and err is not None:
+            cand["worst"] = max(cand["worst"], err)
+
+
+def _smallest(verdict: dict) -> dict | None:
+    """The ok basis with the fewest functions (then the smaller worst error), or None."""
+    good = [c for c in verdict.values() if c["ok"]]
+    return min(good, key=lambda c: (c["size"], c["worst"])) if good else None
+
+
 def _recommend(plan: Plan, states, core=None, second=None) -> dict | None:
     """The smallest basis (fewest functions; then the smaller worst error) meeting the target for every tracked state
     of every ion of the scan, for the core's total energy when there is a core (its iteration converged), and
@@ -261,31 +278,17 @@ def _recommend(plan: Plan, states, core=None, second=None) -> dict | None:
     ``worst_relative_error`` is over the levels and the core's total energy (None when the plan
     tracks only a second-order energy, whose differences are absolute: ``second_order``)."""
     verdict: dict[str, dict] = {}
-    if second is not None:
-        for r in second["rows"]:
-            bk = json.dumps(r["basis"], sort_keys=True)
-            cand = verdict.setdefault(bk, {"basis": r["basis"], "size": r["size"], "ok": True, "worst": 0.0})
-            d = r["difference_hartree"]
-            if r["is_reference"] or d is None or d > plan.second_order_target or r["spurious_roots"]:
-                cand["ok"] = False
+    if second is not None:  # absolute differences: they veto a basis but do not enter the relative worst
+        _judge(verdict, second["rows"], "difference_hartree", plan.second_order_target, worst=False)
     if core is not None:
         for row in core["rows"]:
             if not row["converged"]:
-                bk = json.dumps(row["basis"], sort_keys=True)
-                verdict.setdefault(bk, {"basis": row["basis"], "size": row["size"], "ok": True, "worst": 0.0})["ok"] = False
+                _candidate(verdict, row)["ok"] = False
     for st in (*states.values(), *(() if core is None else (core,))):
-        for row in st["rows"]:
-            bk = json.dumps(row["basis"], sort_keys=True)
-            cand = verdict.setdefault(bk, {"basis": row["basis"], "size": row["size"], "ok": True, "worst": 0.0})
-            err = row["relative_error"]
-            if row["is_reference"] or err is None or err > plan.target or row["spurious_roots"]:
-                cand["ok"] = False  # a basis with spurious roots is not recommended, however accurate
-            if err is not None:
-                cand["worst"] = max(cand["worst"], err)
-    good = [c for c in verdict.values() if c["ok"]]
-    if not good:
+        _judge(verdict, st["rows"], "relative_error", plan.target)
+    best = _smallest(verdict)
+    if best is None:
         return None
-    best = min(good, key=lambda c: (c["size"], c["worst"]))
     relative = bool(states) or core is not None
     return {"basis": best["basis"], "size": best["size"], "worst_relative_error": best["worst"] if relative else None}
 
